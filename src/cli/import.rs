@@ -1,0 +1,245 @@
+//! `streetwood import trees|weather|zones`.
+
+use std::path::{Path, PathBuf};
+
+use chrono::{DateTime, Utc};
+use clap::Subcommand;
+
+use super::{CliError, open_store};
+use crate::io::species_lookup::SpeciesLookup;
+use crate::io::trees_csv::{BadRow, ValidationContext, read_trees_csv, write_rejects};
+use crate::io::{weather_csv, zones_geojson};
+use crate::model::{StationInfo, ZoneRecord};
+use crate::spatial::ZoneIndex;
+use crate::store::Store;
+use crate::store::trees::TreeImportRow;
+
+#[derive(Debug, Subcommand)]
+pub enum ImportCommand {
+    /// Import trees from a trees CSV (all or nothing unless --keep-good).
+    Trees {
+        /// The CSV file.
+        file: PathBuf,
+        /// Check everything, write nothing.
+        #[arg(long)]
+        dry_run: bool,
+        /// Write the good rows and put the bad ones (with a reason column) in --rejects.
+        #[arg(long, requires = "rejects")]
+        keep_good: bool,
+        /// Where --keep-good writes the bad rows.
+        #[arg(long, value_name = "FILE", requires = "keep_good")]
+        rejects: Option<PathBuf>,
+    },
+    /// Import daily weather for a station (all or nothing).
+    Weather {
+        /// The weather CSV file.
+        file: PathBuf,
+        /// Station name (created if new).
+        #[arg(long)]
+        station: String,
+        /// Station latitude, decimal degrees (north positive).
+        #[arg(long, allow_hyphen_values = true)]
+        lat: f64,
+        /// Station longitude, decimal degrees (east positive).
+        #[arg(long, allow_hyphen_values = true)]
+        lon: Option<f64>,
+        /// Station elevation above sea level, m.
+        #[arg(long, allow_hyphen_values = true)]
+        elevation: f64,
+        /// The station is coastal (FAO-56 Hargreaves radiation coefficient 0.19 instead of 0.16).
+        #[arg(long)]
+        coastal: bool,
+        /// Check everything, write nothing.
+        #[arg(long)]
+        dry_run: bool,
+    },
+    /// Import zone polygons (GeoJSON features with a `name`) and assign trees to them.
+    Zones {
+        /// The GeoJSON file.
+        file: PathBuf,
+    },
+}
+
+/// Runs an import subcommand.
+pub fn run(inventory: &Path, command: &ImportCommand, now: DateTime<Utc>) -> Result<(), CliError> {
+    match command {
+        ImportCommand::Trees { file, dry_run, keep_good, rejects } => {
+            import_trees(inventory, file, *dry_run, keep_good.then_some(()).and(rejects.as_deref()), now)
+        }
+        ImportCommand::Weather { file, station, lat, lon, elevation, coastal, dry_run } => {
+            let station = StationInfo { name: station.clone(), lat: *lat, lon: *lon, elevation_m: *elevation, coastal: *coastal };
+            import_weather(inventory, file, &station, *dry_run)
+        }
+        ImportCommand::Zones { file } => import_zones(inventory, file),
+    }
+}
+
+fn read_file(file: &Path) -> Result<Vec<u8>, CliError> {
+    std::fs::read(file).map_err(|e| CliError::Input(format!("cannot read {}: {e}", file.display())))
+}
+
+/// Prints every bad row as `FILE:LINE: field: reason`.
+fn report_bad_rows(file: &Path, bad: &[BadRow]) {
+    for row in bad {
+        for error in &row.errors {
+            eprintln!("{}:{error}", file.display());
+        }
+    }
+}
+
+fn import_trees(
+    inventory: &Path,
+    file: &Path,
+    dry_run: bool,
+    rejects: Option<&Path>,
+    now: DateTime<Utc>,
+) -> Result<(), CliError> {
+    let mut store = open_store(inventory)?;
+    let bytes = read_file(file)?;
+    let lookup = SpeciesLookup::new(&store.species()?);
+    let ctx = ValidationContext { species: &lookup, today: now.date_naive() };
+    let parsed = read_trees_csv(bytes.as_slice(), ctx)
+        .map_err(|e| CliError::Input(format!("{}:{}: {}", file.display(), e.line, e.reason)))?;
+    let total = parsed.good.len() + parsed.bad.len();
+    if !parsed.bad.is_empty() {
+        report_bad_rows(file, &parsed.bad);
+        match rejects {
+            None => {
+                return Err(CliError::Input(format!(
+                    "nothing was written: {} of {total} rows have errors; fix them, or import the good rows with --keep-good --rejects FILE",
+                    parsed.bad.len()
+                )));
+            }
+            Some(rejects_path) if !dry_run => {
+                let out = std::fs::File::create(rejects_path)
+                    .map_err(|e| CliError::Input(format!("cannot write {}: {e}", rejects_path.display())))?;
+                write_rejects(out, &parsed.headers, &parsed.bad).map_err(anyhow::Error::from)?;
+            }
+            Some(_) => {}
+        }
+    }
+    let rows = with_zones(&store, parsed.good)?;
+    let outcome = store
+        .import_trees(&rows, "import", now, dry_run)
+        .map_err(|e| prefix_file(file, e))?;
+    let verb = if dry_run { "would import" } else { "imported" };
+    eprintln!(
+        "{verb} {}: {} trees added, {} trees updated, {} measurements added, {} unchanged{}",
+        file.display(),
+        outcome.trees_added,
+        outcome.trees_updated,
+        outcome.measurements_added,
+        outcome.measurements_unchanged,
+        if dry_run { " (dry run: nothing written)" } else { "" }
+    );
+    if let (Some(path), false) = (rejects, parsed.bad.is_empty()) {
+        eprintln!(
+            "{} rows rejected{}",
+            parsed.bad.len(),
+            if dry_run { String::new() } else { format!(", written with their reasons to {}", path.display()) }
+        );
+    }
+    Ok(())
+}
+
+/// Adds the zone of each row from the stored zone polygons.
+pub fn with_zones(store: &Store, good: Vec<(u64, crate::model::TreeRecord)>) -> Result<Vec<TreeImportRow>, CliError> {
+    let index = zone_index(store)?;
+    Ok(good
+        .into_iter()
+        .map(|(line, record)| {
+            let zone_id = match (record.lon, record.lat) {
+                (Some(lon), Some(lat)) => index.zone_of(lon, lat),
+                _ => None,
+            };
+            TreeImportRow { line, record, zone_id }
+        })
+        .collect())
+}
+
+fn zone_index(store: &Store) -> Result<ZoneIndex, CliError> {
+    let mut shapes = Vec::new();
+    for (id, name, json) in store.zones()? {
+        let text = format!(r#"{{"type":"FeatureCollection","features":[{{"type":"Feature","properties":{{"name":"x"}},"geometry":{json}}}]}}"#);
+        let (zones, _) = zones_geojson::read_zones(&text)
+            .map_err(|e| CliError::Other(anyhow::anyhow!("stored zone '{name}' is unreadable: {}", e.reason)))?;
+        for zone in zones {
+            shapes.push((id, zone.shape));
+        }
+    }
+    Ok(ZoneIndex::new(shapes))
+}
+
+fn prefix_file(file: &Path, error: crate::store::StoreError) -> CliError {
+    match error {
+        crate::store::StoreError::Row { line, message } => {
+            CliError::Input(format!("{}:{line}: {message}\nnothing was written", file.display()))
+        }
+        other => other.into(),
+    }
+}
+
+fn import_weather(inventory: &Path, file: &Path, station: &StationInfo, dry_run: bool) -> Result<(), CliError> {
+    if !(-90.0..=90.0).contains(&station.lat) {
+        return Err(CliError::Input(format!("--lat {} is out of range (-90 to 90)", station.lat)));
+    }
+    if station.lon.is_some_and(|lon| !(-180.0..=180.0).contains(&lon)) {
+        return Err(CliError::Input("--lon is out of range (-180 to 180)".to_string()));
+    }
+    let mut store = open_store(inventory)?;
+    let bytes = read_file(file)?;
+    let parsed = weather_csv::read_weather_csv(bytes.as_slice())
+        .map_err(|e| CliError::Input(format!("{}:{}: {}", file.display(), e.line, e.reason)))?;
+    if !parsed.bad.is_empty() {
+        report_bad_rows(file, &parsed.bad);
+        return Err(CliError::Input(format!(
+            "nothing was written: {} of {} rows have errors",
+            parsed.bad.len(),
+            parsed.bad.len() + parsed.good.len()
+        )));
+    }
+    let outcome = store
+        .import_weather(station, &parsed.good, "import", dry_run)
+        .map_err(|e| prefix_file(file, e))?;
+    eprintln!(
+        "{} {} days for station '{}'{}",
+        if dry_run { "would import" } else { "imported" },
+        outcome.days_written,
+        station.name,
+        if dry_run { " (dry run: nothing written)" } else { "" }
+    );
+    Ok(())
+}
+
+fn import_zones(inventory: &Path, file: &Path) -> Result<(), CliError> {
+    let mut store = open_store(inventory)?;
+    let text = String::from_utf8(read_file(file)?)
+        .map_err(|_| CliError::Input(format!("{} is not UTF-8 text", file.display())))?;
+    let (zones, errors) = zones_geojson::read_zones(&text)
+        .map_err(|e| CliError::Input(format!("{}: {}", file.display(), e.reason)))?;
+    if !errors.is_empty() {
+        for error in &errors {
+            eprintln!("{}: feature {}: {}: {}", file.display(), error.line, error.field, error.reason);
+        }
+        return Err(CliError::Input(format!("nothing was written: {} features have errors", errors.len())));
+    }
+    let assigned = load_zones(&mut store, &zones, "import")?;
+    eprintln!("imported {} zones; {assigned} trees changed zone", zones.len());
+    Ok(())
+}
+
+/// Stores zones and reassigns every tree with coordinates to the zone containing it.
+pub fn load_zones(store: &mut Store, zones: &[zones_geojson::ZoneShape], actor: &str) -> Result<usize, CliError> {
+    let records: Vec<ZoneRecord> = zones
+        .iter()
+        .map(|z| ZoneRecord { name: z.name.clone(), geometry_json: z.geometry_json.clone() })
+        .collect();
+    store.upsert_zones(&records, actor)?;
+    let index = zone_index(store)?;
+    let assignments: Vec<(i64, Option<i64>)> = store
+        .tree_positions()?
+        .into_iter()
+        .map(|(id, lon, lat)| (id, index.zone_of(lon, lat)))
+        .collect();
+    Ok(store.assign_zones(&assignments, actor)?)
+}

@@ -1,0 +1,232 @@
+//! The command line: one module per subcommand, each a thin adapter over core + store + io.
+//! DESIGN.md "Command line" is the stable contract: exit 0 on success, 2 on bad input (the message
+//! names file, line, field and reason), 1 on any other failure.
+
+pub mod admin;
+pub mod demo;
+pub mod export;
+pub mod import;
+
+use std::io::Write;
+use std::path::{Path, PathBuf};
+
+use clap::{Parser, Subcommand, ValueEnum};
+
+use crate::store::{Store, StoreError};
+
+/// Streetwood: street-tree inventory, benefits, care and removal studies, offline.
+#[derive(Debug, Parser)]
+#[command(name = "streetwood", version, about, long_about = None)]
+pub struct Cli {
+    /// The inventory file (default: the demo inventory in your data directory).
+    #[arg(long, global = true, env = "STREETWOOD_DB", value_name = "FILE")]
+    pub db: Option<PathBuf>,
+    /// Units shown at the edges (inside everything is SI).
+    #[arg(long, global = true, value_enum)]
+    pub units: Option<Units>,
+    #[command(subcommand)]
+    pub command: Option<Command>,
+}
+
+/// Display units.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum Units {
+    Metric,
+    Us,
+}
+
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Create an empty inventory.
+    Init {
+        /// The new inventory file.
+        file: PathBuf,
+    },
+    /// Write the demo inventory (an invented town) to a file.
+    Demo {
+        /// Where to write it.
+        #[arg(long, value_name = "FILE")]
+        out: PathBuf,
+        /// Replace the file if it exists.
+        #[arg(long)]
+        force: bool,
+    },
+    /// Import trees, weather or zones.
+    #[command(subcommand)]
+    Import(import::ImportCommand),
+    /// Export trees as CSV or GeoJSON.
+    #[command(subcommand)]
+    Export(export::ExportCommand),
+    /// Copy the inventory to FILE with SQLite's online backup (safe while others use it).
+    Backup {
+        /// The backup file.
+        file: PathBuf,
+        /// Replace FILE if it exists.
+        #[arg(long)]
+        force: bool,
+    },
+    /// List the species list (botanical and common names, groups, growth rates).
+    Species {
+        /// Output format.
+        #[arg(long, value_enum, default_value = "table")]
+        format: admin::ListFormat,
+    },
+}
+
+/// How a command failed, which decides the exit code.
+#[derive(Debug, thiserror::Error)]
+pub enum CliError {
+    /// Bad input from the user or a file: exit code 2.
+    #[error("{0}")]
+    Input(String),
+    /// Anything else: exit code 1.
+    #[error(transparent)]
+    Other(#[from] anyhow::Error),
+}
+
+impl CliError {
+    /// The process exit code for this error.
+    pub fn exit_code(&self) -> u8 {
+        match self {
+            CliError::Input(_) => 2,
+            CliError::Other(_) => 1,
+        }
+    }
+}
+
+impl From<StoreError> for CliError {
+    fn from(error: StoreError) -> Self {
+        match error {
+            StoreError::Row { .. }
+            | StoreError::Invalid(_)
+            | StoreError::Missing { .. }
+            | StoreError::NotAnInventory { .. }
+            | StoreError::NewerSchema { .. } => CliError::Input(error.to_string()),
+            other => CliError::Other(anyhow::Error::new(other)),
+        }
+    }
+}
+
+impl From<std::io::Error> for CliError {
+    fn from(error: std::io::Error) -> Self {
+        CliError::Other(error.into())
+    }
+}
+
+/// Runs a parsed command line that has a subcommand. (No subcommand opens the TUI; see `main`.)
+pub fn run(cli: &Cli, command: &Command, now: chrono::DateTime<chrono::Utc>) -> Result<(), CliError> {
+    match command {
+        Command::Init { file } => admin::init(file),
+        Command::Demo { out, force } => demo::write_demo(out, *force).map(|summary| {
+            eprintln!("{summary}");
+        }),
+        Command::Import(what) => import::run(&inventory_path(cli)?, what, now),
+        Command::Export(what) => export::run(&inventory_path(cli)?, what),
+        Command::Backup { file, force } => admin::backup(&inventory_path(cli)?, file, *force),
+        Command::Species { format } => admin::species(&inventory_path(cli)?, *format),
+    }
+}
+
+/// The inventory a command works on: `--db` / `STREETWOOD_DB`, else the demo in the data directory
+/// (created on first use).
+pub fn inventory_path(cli: &Cli) -> Result<PathBuf, CliError> {
+    if let Some(path) = &cli.db {
+        return Ok(path.clone());
+    }
+    let path = default_demo_path()?;
+    if !path.exists() {
+        if let Some(dir) = path.parent() {
+            std::fs::create_dir_all(dir)?;
+        }
+        let summary = demo::write_demo(&path, false)?;
+        eprintln!("first run: {summary}");
+    }
+    Ok(path)
+}
+
+/// Where the demo inventory lives when no `--db` is given.
+pub fn default_demo_path() -> Result<PathBuf, CliError> {
+    let dirs = directories::ProjectDirs::from("org", "Streetwood", "streetwood").ok_or_else(|| {
+        CliError::Input("no home directory found; pass --db FILE or set STREETWOOD_DB".to_string())
+    })?;
+    Ok(dirs.data_dir().join("demo-inventory.db"))
+}
+
+/// Opens an existing inventory for a command.
+pub fn open_store(path: &Path) -> Result<Store, CliError> {
+    Ok(Store::open_existing(path)?)
+}
+
+/// Writes to `out` through a temporary file renamed into place at the end (so a failed export never
+/// leaves half a file), or to stdout. Refuses to overwrite the inventory itself.
+pub fn with_output(
+    out: Option<&Path>,
+    inventory: &Path,
+    write: impl FnOnce(&mut dyn Write) -> Result<(), CliError>,
+) -> Result<(), CliError> {
+    match out {
+        None => {
+            let stdout = std::io::stdout();
+            let mut lock = std::io::BufWriter::new(stdout.lock());
+            let result = write(&mut lock).and_then(|()| lock.flush().map_err(CliError::from));
+            match result {
+                Err(CliError::Other(e)) if is_broken_pipe(&e) => Ok(()),
+                other => other,
+            }
+        }
+        Some(path) => {
+            if same_file(path, inventory) {
+                return Err(CliError::Input(format!(
+                    "{} is the inventory itself; choose another output file",
+                    path.display()
+                )));
+            }
+            let partial = partial_path(path);
+            let file = std::fs::File::create(&partial)
+                .map_err(|e| CliError::Input(format!("cannot write {}: {e}", partial.display())))?;
+            let mut writer = std::io::BufWriter::new(file);
+            let result = write(&mut writer).and_then(|()| writer.flush().map_err(CliError::from));
+            drop(writer);
+            match result {
+                Ok(()) => {
+                    std::fs::rename(&partial, path)?;
+                    Ok(())
+                }
+                Err(e) => {
+                    let _ = std::fs::remove_file(&partial);
+                    Err(e)
+                }
+            }
+        }
+    }
+}
+
+fn partial_path(path: &Path) -> PathBuf {
+    let mut name = path.file_name().map(|n| n.to_os_string()).unwrap_or_default();
+    name.push(".partial");
+    path.with_file_name(name)
+}
+
+/// True when two paths name the same existing file.
+pub fn same_file(a: &Path, b: &Path) -> bool {
+    match (a.canonicalize(), b.canonicalize()) {
+        (Ok(a), Ok(b)) => a == b,
+        _ => false,
+    }
+}
+
+fn is_broken_pipe(error: &anyhow::Error) -> bool {
+    error.chain().any(|cause| {
+        cause
+            .downcast_ref::<std::io::Error>()
+            .is_some_and(|e| e.kind() == std::io::ErrorKind::BrokenPipe)
+    })
+}
+
+/// A CSV writer error as a CLI error (keeping I/O errors such as a closed pipe recognisable).
+pub fn csv_error(error: csv::Error) -> CliError {
+    match error.into_kind() {
+        csv::ErrorKind::Io(io) => CliError::from(io),
+        other => CliError::Other(anyhow::anyhow!("CSV: {other:?}")),
+    }
+}

@@ -1,0 +1,35 @@
+//! The settings registry: every key the `settings` table holds, with its default. Science defaults come
+//! from METHODS.md (via [`crate::science`]); the others are Streetwood's own.
+
+/// Every setting with its default value, as stored (text).
+pub fn default_pairs() -> Vec<(&'static str, String)> {
+    let mut pairs: Vec<(&'static str, String)> = vec![
+        // Display units at the edges: metric or us (customary). Inside everything is SI.
+        ("units", "metric".to_string()),
+        // The weather station whose days feed the benefits (name in weather_stations); empty = the only one.
+        ("default_station", String::new()),
+    ];
+    for rating in crate::care::risk::RiskRating::ALL {
+        pairs.push((
+            reinspect_key(*rating),
+            crate::care::risk::default_reinspection_months(*rating).to_string(),
+        ));
+    }
+    pairs.extend(science_pairs());
+    pairs
+}
+
+fn science_pairs() -> Vec<(&'static str, String)> {
+    Vec::new()
+}
+
+/// The settings key holding the re-inspection interval (months) of a risk rating.
+pub fn reinspect_key(rating: crate::care::risk::RiskRating) -> &'static str {
+    use crate::care::risk::RiskRating;
+    match rating {
+        RiskRating::Low => "reinspect_months_low",
+        RiskRating::Moderate => "reinspect_months_moderate",
+        RiskRating::High => "reinspect_months_high",
+        RiskRating::Extreme => "reinspect_months_extreme",
+    }
+}

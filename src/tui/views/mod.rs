@@ -1,0 +1,3 @@
+//! One module per view.
+
+pub mod roster;
