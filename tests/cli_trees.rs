@@ -212,3 +212,46 @@ fn missing_inventory_is_a_clear_error() {
     assert!(stderr(&output).contains("nope.db does not exist"), "{}", stderr(&output));
     assert!(!dir.path().join("nope.db").exists(), "a typo must not create a file");
 }
+
+#[test]
+fn demo_file_exports_geojson_and_backs_up() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    let db = dir.path().join("x.db");
+    let db = db.to_str().expect("path");
+    let output = run(dir.path(), &["demo", "--out", db]);
+    assert!(output.status.success(), "{}", stderr(&output));
+    assert!(stderr(&output).contains("an invented town"));
+    let again = run(dir.path(), &["demo", "--out", db]);
+    assert_eq!(again.status.code(), Some(2), "an existing file is not replaced without --force");
+
+    let output = run(dir.path(), &["--db", db, "export", "trees", "--format", "geojson"]);
+    assert!(output.status.success(), "{}", stderr(&output));
+    let parsed: geojson::GeoJson = stdout(&output).parse().expect("valid GeoJSON");
+    let geojson::GeoJson::FeatureCollection(collection) = parsed else {
+        panic!("not a FeatureCollection");
+    };
+    assert!(collection.features.len() > 2000, "about 2,500 demo trees");
+    for feature in &collection.features {
+        if let Some(geojson::GeometryValue::Point { coordinates }) = feature.geometry.as_ref().map(|g| &g.value) {
+            // The invented town lies near 42.7° N, 84.1° W: longitude first, then latitude.
+            assert!((-85.0..-83.0).contains(&coordinates[0]) && (42.0..43.5).contains(&coordinates[1]));
+        }
+    }
+
+    let backup = dir.path().join("backup.db");
+    let output = run(dir.path(), &["--db", db, "backup", backup.to_str().expect("path")]);
+    assert!(output.status.success(), "{}", stderr(&output));
+    assert!(stderr(&output).contains("integrity ok"));
+}
+
+#[test]
+fn without_db_the_demo_is_created_in_the_data_directory() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    let output = run(dir.path(), &["export", "trees"]);
+    assert!(output.status.success(), "{}", stderr(&output));
+    assert!(stderr(&output).contains("first run"), "{}", stderr(&output));
+    assert!(dir.path().join("xdg-data/streetwood/demo-inventory.db").exists());
+    assert!(stdout(&output).lines().count() > 2000);
+    let second = run(dir.path(), &["export", "trees"]);
+    assert!(!stderr(&second).contains("first run"));
+}

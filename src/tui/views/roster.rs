@@ -130,7 +130,7 @@ pub fn status_line(state: &State) -> Line<'static> {
 /// Draws the table.
 pub fn render(state: &State, settings: AppSettings, frame: &mut Frame<'_>, area: Rect) {
     let dbh_header = if settings.us_units { "DBH in" } else { "DBH cm" };
-    let header = Row::new(["id", "uid", "species", "common name", "street", "no.", dbh_header, "condition", "status", "zone"])
+    let header = Row::new(["", "id", "uid", "species", "common name", "street", "no.", dbh_header, "condition", "status", "zone"])
         .style(Style::new().add_modifier(Modifier::BOLD | Modifier::UNDERLINED));
     let rows = state.rows.iter().enumerate().map(|(i, tree)| {
         let dbh = tree.dbh_cm.map(|d| if settings.us_units { cm_to_inches(d) } else { d });
@@ -138,7 +138,10 @@ pub fn render(state: &State, settings: AppSettings, frame: &mut Frame<'_>, area:
             .effective_dieback_pct()
             .map(|p| ConditionBand::from_dieback(p).as_str())
             .unwrap_or("");
+        let selected = state.offset + i == state.selected;
         let row = Row::new([
+            // The selection is marked by a sign as well as by reversed video (never by colour alone).
+            Cell::from(if selected { "▶" } else { "" }),
             Cell::from(tree.id.to_string()),
             Cell::from(tree.uid.chars().take(8).collect::<String>()),
             Cell::from(tree.species.clone()),
@@ -150,13 +153,14 @@ pub fn render(state: &State, settings: AppSettings, frame: &mut Frame<'_>, area:
             Cell::from(tree.status.as_str()),
             Cell::from(tree.zone.clone().unwrap_or_default()),
         ]);
-        if state.offset + i == state.selected {
+        if selected {
             row.style(Style::new().add_modifier(Modifier::REVERSED))
         } else {
             row
         }
     });
     let widths = [
+        Constraint::Length(1),
         Constraint::Length(7),
         Constraint::Length(8),
         Constraint::Length(24),
@@ -164,9 +168,9 @@ pub fn render(state: &State, settings: AppSettings, frame: &mut Frame<'_>, area:
         Constraint::Min(14),
         Constraint::Length(5),
         Constraint::Length(7),
-        Constraint::Length(9),
+        Constraint::Length(10),
         Constraint::Length(8),
-        Constraint::Length(14),
+        Constraint::Length(16),
     ];
     frame.render_widget(
         Table::new(rows, widths)
