@@ -5,11 +5,11 @@
 //! `tui` and `cli` (in the binary's reach) are thin adapters over the core, the store and io.
 
 pub mod care;
+pub mod cli;
 pub mod io;
 pub mod model;
 pub mod science;
 pub mod settings;
 pub mod spatial;
 pub mod store;
-pub mod cli;
 pub mod tui;

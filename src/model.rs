@@ -138,7 +138,8 @@ pub struct TreeSummary {
 impl TreeSummary {
     /// Dieback of the latest measurement, from the percentage or else the condition word (METHODS.md M3).
     pub fn effective_dieback_pct(&self) -> Option<f64> {
-        self.dieback_pct.or(self.condition.map(ConditionWord::dieback_pct))
+        self.dieback_pct
+            .or(self.condition.map(ConditionWord::dieback_pct))
     }
 }
 

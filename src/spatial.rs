@@ -47,10 +47,17 @@ mod tests {
     fn hand_placed_points_fall_in_the_right_zone() {
         let west = polygon![(x: 0.0, y: 0.0), (x: 1.0, y: 0.0), (x: 1.0, y: 1.0), (x: 0.0, y: 1.0)];
         let east = polygon![(x: 1.0, y: 0.0), (x: 2.0, y: 0.0), (x: 2.0, y: 1.0), (x: 1.0, y: 1.0)];
-        let index = ZoneIndex::new([(1, MultiPolygon::new(vec![west])), (2, MultiPolygon::new(vec![east]))]);
+        let index = ZoneIndex::new([
+            (1, MultiPolygon::new(vec![west])),
+            (2, MultiPolygon::new(vec![east])),
+        ]);
         assert_eq!(index.zone_of(0.5, 0.5), Some(1));
         assert_eq!(index.zone_of(1.5, 0.25), Some(2));
-        assert_eq!(index.zone_of(1.0, 0.5), Some(1), "a shared edge goes to the first zone");
+        assert_eq!(
+            index.zone_of(1.0, 0.5),
+            Some(1),
+            "a shared edge goes to the first zone"
+        );
         assert_eq!(index.zone_of(2.5, 0.5), None);
     }
 }

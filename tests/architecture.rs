@@ -21,14 +21,22 @@ fn files_mentioning(word: &str) -> Vec<String> {
     files
         .into_iter()
         .filter(|f| std::fs::read_to_string(f).is_ok_and(|t| t.contains(word)))
-        .map(|f| f.strip_prefix(&root).expect("under src").to_string_lossy().replace('\\', "/"))
+        .map(|f| {
+            f.strip_prefix(&root)
+                .expect("under src")
+                .to_string_lossy()
+                .replace('\\', "/")
+        })
         .collect()
 }
 
 #[test]
 fn sql_lives_only_in_the_store() {
     for file in files_mentioning("rusqlite") {
-        assert!(file.starts_with("store/"), "{file} uses rusqlite outside store/");
+        assert!(
+            file.starts_with("store/"),
+            "{file} uses rusqlite outside store/"
+        );
     }
 }
 
@@ -43,7 +51,14 @@ fn terminal_crates_live_only_in_the_tui() {
 
 #[test]
 fn the_core_does_no_io() {
-    for word in ["std::fs", "std::net", "std::process", "Utc::now", "Local::now", "SystemTime"] {
+    for word in [
+        "std::fs",
+        "std::net",
+        "std::process",
+        "Utc::now",
+        "Local::now",
+        "SystemTime",
+    ] {
         for file in files_mentioning(word) {
             for core in ["science/", "care/", "study/", "spatial.rs", "model.rs"] {
                 assert!(!file.starts_with(core), "{file} (pure core) uses {word}");

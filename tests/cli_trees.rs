@@ -24,7 +24,10 @@ fn csv_round_trip_store_and_back_is_equal() {
     let file = write(dir.path(), "trees.csv", &input);
     let output = run(dir.path(), &["--db", &db, "import", "trees", &file]);
     assert!(output.status.success(), "{}", stderr(&output));
-    let output = run(dir.path(), &["--db", &db, "export", "trees", "--format", "csv"]);
+    let output = run(
+        dir.path(),
+        &["--db", &db, "export", "trees", "--format", "csv"],
+    );
     assert!(output.status.success(), "{}", stderr(&output));
     assert_eq!(stdout(&output), input);
 }
@@ -60,26 +63,46 @@ fn bad_rows_are_all_named_nothing_is_written_and_the_file_is_unchanged() {
     ] {
         assert!(err.contains(expected), "missing '{expected}' in:\n{err}");
     }
-    assert!(!err.contains("bad.csv:2:") && !err.contains("bad.csv:9:"), "good rows reported:\n{err}");
+    assert!(
+        !err.contains("bad.csv:2:") && !err.contains("bad.csv:9:"),
+        "good rows reported:\n{err}"
+    );
     let after = std::fs::read(&db).expect("read inventory");
     assert!(before == after, "the inventory file changed");
     let export = run(dir.path(), &["--db", &db, "export", "trees"]);
-    assert_eq!(stdout(&export).lines().count(), 1, "only the header: nothing imported");
+    assert_eq!(
+        stdout(&export).lines().count(),
+        1,
+        "only the header: nothing imported"
+    );
 
     // --keep-good writes exactly the good rows, and the bad ones with reasons to the rejects file.
     let rejects = dir.path().join("rejects.csv");
     let output = run(
         dir.path(),
-        &["--db", &db, "import", "trees", &file, "--keep-good", "--rejects", rejects.to_str().expect("path")],
+        &[
+            "--db",
+            &db,
+            "import",
+            "trees",
+            &file,
+            "--keep-good",
+            "--rejects",
+            rejects.to_str().expect("path"),
+        ],
     );
     assert!(output.status.success(), "{}", stderr(&output));
     let export = stdout(&run(dir.path(), &["--db", &db, "export", "trees"]));
-    let uids: Vec<&str> = export.lines().skip(1).filter_map(|l| l.split(',').next()).collect();
+    let uids: Vec<&str> = export
+        .lines()
+        .skip(1)
+        .filter_map(|l| l.split(',').next())
+        .collect();
     assert_eq!(uids, ["g1", "g2"]);
     let rejected = std::fs::read_to_string(&rejects).expect("rejects written");
     let mut reader = csv::Reader::from_reader(rejected.as_bytes());
     let headers = reader.headers().expect("header").clone();
-    assert_eq!(headers.iter().last(), Some("reason"));
+    assert_eq!(headers.iter().next_back(), Some("reason"));
     let rows: Vec<csv::StringRecord> = reader.records().map(|r| r.expect("row")).collect();
     let rejected_uids: Vec<&str> = rows.iter().map(|r| &r[0]).collect();
     assert_eq!(rejected_uids, ["b1", "b2", "b3", "b4", "b5", "b6"]);
@@ -90,10 +113,18 @@ fn bad_rows_are_all_named_nothing_is_written_and_the_file_is_unchanged() {
 fn header_errors_are_file_errors_with_exit_2() {
     let dir = tempfile::tempdir().expect("temp dir");
     let db = empty_inventory(dir.path());
-    let file = write(dir.path(), "typo.csv", "species,dbh_cm,heigth_m\nAcer rubrum,30,12\n");
+    let file = write(
+        dir.path(),
+        "typo.csv",
+        "species,dbh_cm,heigth_m\nAcer rubrum,30,12\n",
+    );
     let output = run(dir.path(), &["--db", &db, "import", "trees", &file]);
     assert_eq!(output.status.code(), Some(2));
-    assert!(stderr(&output).contains("typo.csv:1: unknown column 'heigth_m'"), "{}", stderr(&output));
+    assert!(
+        stderr(&output).contains("typo.csv:1: unknown column 'heigth_m'"),
+        "{}",
+        stderr(&output)
+    );
 }
 
 // NIST SP 811 (2008) B.8: 1 in = 2.54 cm and 1 ft = 0.3048 m exactly; US customary headers are
@@ -110,7 +141,11 @@ fn us_customary_headers_convert_exactly() {
     // u2 has no DBH at all: a row error, nothing written.
     let output = run(dir.path(), &["--db", &db, "import", "trees", &file]);
     assert_eq!(output.status.code(), Some(2));
-    assert!(stderr(&output).contains("us.csv:3: dbh_cm: dbh_cm (or stems_cm) is required"), "{}", stderr(&output));
+    assert!(
+        stderr(&output).contains("us.csv:3: dbh_cm: dbh_cm (or stems_cm) is required"),
+        "{}",
+        stderr(&output)
+    );
     let file = write(
         dir.path(),
         "us.csv",
@@ -120,7 +155,11 @@ fn us_customary_headers_convert_exactly() {
     assert!(output.status.success(), "{}", stderr(&output));
     let export = stdout(&run(dir.path(), &["--db", &db, "export", "trees"]));
     let mut reader = csv::Reader::from_reader(export.as_bytes());
-    let row = reader.records().next().expect("one row").expect("valid row");
+    let row = reader
+        .records()
+        .next()
+        .expect("one row")
+        .expect("valid row");
     assert_eq!(&row[1], "Acer rubrum", "species found by its common name");
     assert_eq!(row[10].parse::<f64>().ok(), Some(10.0 * 2.54));
     assert_eq!(row[12].parse::<f64>().ok(), Some(40.0 * 0.3048));
@@ -140,13 +179,25 @@ fn repeated_uid_adds_a_measurement_and_reimport_changes_nothing() {
     );
     let output = run(dir.path(), &["--db", &db, "import", "trees", &file]);
     assert!(output.status.success(), "{}", stderr(&output));
-    assert!(stderr(&output).contains("1 trees added, 0 trees updated, 2 measurements added"), "{}", stderr(&output));
+    assert!(
+        stderr(&output).contains("1 trees added, 0 trees updated, 2 measurements added"),
+        "{}",
+        stderr(&output)
+    );
     let again = run(dir.path(), &["--db", &db, "import", "trees", &file]);
-    assert!(stderr(&again).contains("0 trees added, 0 trees updated, 0 measurements added, 2 unchanged"), "{}", stderr(&again));
+    assert!(
+        stderr(&again)
+            .contains("0 trees added, 0 trees updated, 0 measurements added, 2 unchanged"),
+        "{}",
+        stderr(&again)
+    );
     let latest = stdout(&run(dir.path(), &["--db", &db, "export", "trees"]));
     assert_eq!(latest.lines().count(), 2);
     assert!(latest.contains(",2025-06-01,28.5,"));
-    let history = stdout(&run(dir.path(), &["--db", &db, "export", "trees", "--history"]));
+    let history = stdout(&run(
+        dir.path(),
+        &["--db", &db, "export", "trees", "--history"],
+    ));
     assert_eq!(history.lines().count(), 3);
 }
 
@@ -155,10 +206,18 @@ fn dry_run_writes_nothing() {
     let dir = tempfile::tempdir().expect("temp dir");
     let db = empty_inventory(dir.path());
     let file = write(dir.path(), "t.csv", &format!("{TREES_HEADER}\n{GOOD_ROWS}"));
-    let output = run(dir.path(), &["--db", &db, "import", "trees", &file, "--dry-run"]);
+    let output = run(
+        dir.path(),
+        &["--db", &db, "import", "trees", &file, "--dry-run"],
+    );
     assert!(output.status.success(), "{}", stderr(&output));
     assert!(stderr(&output).contains("would import"));
-    assert_eq!(stdout(&run(dir.path(), &["--db", &db, "export", "trees"])).lines().count(), 1);
+    assert_eq!(
+        stdout(&run(dir.path(), &["--db", &db, "export", "trees"]))
+            .lines()
+            .count(),
+        1
+    );
 }
 
 #[test]
@@ -166,11 +225,24 @@ fn geojson_export_parses_with_lon_lat_order() {
     let dir = tempfile::tempdir().expect("temp dir");
     let db = empty_inventory(dir.path());
     let file = write(dir.path(), "t.csv", &format!("{TREES_HEADER}\n{GOOD_ROWS}"));
-    assert!(run(dir.path(), &["--db", &db, "import", "trees", &file]).status.success());
+    assert!(
+        run(dir.path(), &["--db", &db, "import", "trees", &file])
+            .status
+            .success()
+    );
     let out = dir.path().join("trees.geojson");
     let output = run(
         dir.path(),
-        &["--db", &db, "export", "trees", "--format", "geojson", "--out", out.to_str().expect("path")],
+        &[
+            "--db",
+            &db,
+            "export",
+            "trees",
+            "--format",
+            "geojson",
+            "--out",
+            out.to_str().expect("path"),
+        ],
     );
     assert!(output.status.success(), "{}", stderr(&output));
     let text = std::fs::read_to_string(&out).expect("geojson written");
@@ -182,15 +254,25 @@ fn geojson_export_parses_with_lon_lat_order() {
     let first = &collection.features[0];
     match first.geometry.as_ref().map(|g| &g.value) {
         Some(geojson::GeometryValue::Point { coordinates }) => {
-            assert_eq!(coordinates.as_slice(), &[-84.1, 42.7], "RFC 7946: [longitude, latitude]");
+            assert_eq!(
+                coordinates.as_slice(),
+                &[-84.1, 42.7],
+                "RFC 7946: [longitude, latitude]"
+            );
         }
         other => panic!("expected a Point, got {other:?}"),
     }
     let props = first.properties.as_ref().expect("properties");
     assert_eq!(props["species"], "Acer rubrum");
     assert_eq!(props["dbh_cm"], 30.5);
-    assert!(collection.features[2].geometry.is_none(), "no coordinates → null geometry");
-    assert_eq!(collection.features[2].properties.as_ref().expect("p")["notes"], "=cmd()");
+    assert!(
+        collection.features[2].geometry.is_none(),
+        "no coordinates → null geometry"
+    );
+    assert_eq!(
+        collection.features[2].properties.as_ref().expect("p")["notes"],
+        "=cmd()"
+    );
 }
 
 #[test]
@@ -209,8 +291,15 @@ fn missing_inventory_is_a_clear_error() {
     let dir = tempfile::tempdir().expect("temp dir");
     let output = run(dir.path(), &["--db", "nope.db", "export", "trees"]);
     assert_eq!(output.status.code(), Some(2));
-    assert!(stderr(&output).contains("nope.db does not exist"), "{}", stderr(&output));
-    assert!(!dir.path().join("nope.db").exists(), "a typo must not create a file");
+    assert!(
+        stderr(&output).contains("nope.db does not exist"),
+        "{}",
+        stderr(&output)
+    );
+    assert!(
+        !dir.path().join("nope.db").exists(),
+        "a typo must not create a file"
+    );
 }
 
 #[test]
@@ -222,9 +311,16 @@ fn demo_file_exports_geojson_and_backs_up() {
     assert!(output.status.success(), "{}", stderr(&output));
     assert!(stderr(&output).contains("an invented town"));
     let again = run(dir.path(), &["demo", "--out", db]);
-    assert_eq!(again.status.code(), Some(2), "an existing file is not replaced without --force");
+    assert_eq!(
+        again.status.code(),
+        Some(2),
+        "an existing file is not replaced without --force"
+    );
 
-    let output = run(dir.path(), &["--db", db, "export", "trees", "--format", "geojson"]);
+    let output = run(
+        dir.path(),
+        &["--db", db, "export", "trees", "--format", "geojson"],
+    );
     assert!(output.status.success(), "{}", stderr(&output));
     let parsed: geojson::GeoJson = stdout(&output).parse().expect("valid GeoJSON");
     let geojson::GeoJson::FeatureCollection(collection) = parsed else {
@@ -232,14 +328,21 @@ fn demo_file_exports_geojson_and_backs_up() {
     };
     assert!(collection.features.len() > 2000, "about 2,500 demo trees");
     for feature in &collection.features {
-        if let Some(geojson::GeometryValue::Point { coordinates }) = feature.geometry.as_ref().map(|g| &g.value) {
+        if let Some(geojson::GeometryValue::Point { coordinates }) =
+            feature.geometry.as_ref().map(|g| &g.value)
+        {
             // The invented town lies near 42.7° N, 84.1° W: longitude first, then latitude.
-            assert!((-85.0..-83.0).contains(&coordinates[0]) && (42.0..43.5).contains(&coordinates[1]));
+            assert!(
+                (-85.0..-83.0).contains(&coordinates[0]) && (42.0..43.5).contains(&coordinates[1])
+            );
         }
     }
 
     let backup = dir.path().join("backup.db");
-    let output = run(dir.path(), &["--db", db, "backup", backup.to_str().expect("path")]);
+    let output = run(
+        dir.path(),
+        &["--db", db, "backup", backup.to_str().expect("path")],
+    );
     assert!(output.status.success(), "{}", stderr(&output));
     assert!(stderr(&output).contains("integrity ok"));
 }
@@ -250,7 +353,11 @@ fn without_db_the_demo_is_created_in_the_data_directory() {
     let output = run(dir.path(), &["export", "trees"]);
     assert!(output.status.success(), "{}", stderr(&output));
     assert!(stderr(&output).contains("first run"), "{}", stderr(&output));
-    assert!(dir.path().join("xdg-data/streetwood/demo-inventory.db").exists());
+    assert!(
+        dir.path()
+            .join("xdg-data/streetwood/demo-inventory.db")
+            .exists()
+    );
     assert!(stdout(&output).lines().count() > 2000);
     let second = run(dir.path(), &["export", "trees"]);
     assert!(!stderr(&second).contains("first run"));

@@ -42,7 +42,11 @@ fn roster_shows_the_first_page_and_scrolls_virtually() {
     assert!(first.contains("tree 1 of 2497"), "{first}");
     assert!(first.contains("DBH cm"), "{first}");
     assert!(first.contains("▶"), "the selection is marked by a sign");
-    assert_eq!(app.roster.visible_rows().len(), 24, "only the visible rows are fetched");
+    assert_eq!(
+        app.roster.visible_rows().len(),
+        24,
+        "only the visible rows are fetched"
+    );
 
     app.update(Action::Roster(Move::Last));
     let last = screen(&mut app, &query, 120, 30);
@@ -52,7 +56,10 @@ fn roster_shows_the_first_page_and_scrolls_virtually() {
     app.update(Action::Roster(Move::PageUp));
     app.update(Action::Roster(Move::Up));
     let paged = screen(&mut app, &query, 120, 30);
-    assert!(paged.contains(&format!("tree {} of 2497", 2497 - 24 - 1)), "{paged}");
+    assert!(
+        paged.contains(&format!("tree {} of 2497", 2497 - 24 - 1)),
+        "{paged}"
+    );
 }
 
 #[test]
@@ -62,7 +69,12 @@ fn us_units_show_dbh_in_inches() {
     let mut app = App::new(&query, AppSettings { us_units: true }).expect("app");
     let text = screen(&mut app, &query, 120, 12);
     assert!(text.contains("DBH in"), "{text}");
-    let first = app.roster.visible_rows().first().and_then(|r| r.dbh_cm).expect("a DBH");
+    let first = app
+        .roster
+        .visible_rows()
+        .first()
+        .and_then(|r| r.dbh_cm)
+        .expect("a DBH");
     // 1 in = 2.54 cm (NIST SP 811): the shown value is the stored cm divided by 2.54.
     assert!(text.contains(&format!("{:.1}", first / 2.54)), "{text}");
 }
@@ -76,8 +88,13 @@ fn help_opens_with_the_caution_and_q_quits() {
     let text = screen(&mut app, &query, 100, 30);
     assert!(text.contains("Help"), "{text}");
     assert!(text.contains("qualified arborist"), "{text}");
-    let q = ratatui::crossterm::event::KeyEvent::from(ratatui::crossterm::event::KeyCode::Char('q'));
-    assert_eq!(app.handle_key(q), Some(Action::ToggleHelp), "any key closes help first");
+    let q =
+        ratatui::crossterm::event::KeyEvent::from(ratatui::crossterm::event::KeyCode::Char('q'));
+    assert_eq!(
+        app.handle_key(q),
+        Some(Action::ToggleHelp),
+        "any key closes help first"
+    );
     app.update(Action::ToggleHelp);
     assert_eq!(app.handle_key(q), Some(Action::Quit));
 }
@@ -101,12 +118,18 @@ fn binary_opens_the_roster_in_a_terminal_and_quits() {
     assert!(output.status.success(), "{}", common::stderr(&output));
 
     let mut command = std::process::Command::new(common::binary());
-    command.args(["--db", db.to_str().expect("path")]).env("TERM", "xterm-256color");
+    command
+        .args(["--db", db.to_str().expect("path")])
+        .env("TERM", "xterm-256color");
     let mut session = expectrl::session::Session::spawn(command).expect("spawn in a pty");
     session.set_expect_timeout(Some(std::time::Duration::from_secs(20)));
-    let found = session.expect("2497").expect("the roster's status line appears");
+    let found = session
+        .expect("2497")
+        .expect("the roster's status line appears");
     let size = std::num::NonZeroU16::new;
-    let (Some(rows), Some(cols)) = (size(24), size(80)) else { unreachable!("non-zero sizes") };
+    let (Some(rows), Some(cols)) = (size(24), size(80)) else {
+        unreachable!("non-zero sizes")
+    };
     let mut parser = vt100::Parser::new(rows, cols, 0);
     parser.process(found.before());
     parser.process(found.as_bytes());
@@ -118,5 +141,8 @@ fn binary_opens_the_roster_in_a_terminal_and_quits() {
     session.expect(expectrl::Eof).expect("the program ends");
     let status = session.get_process().wait().expect("exit status");
     let status = format!("{status:?}");
-    assert!(status.starts_with("Exited(") && status.ends_with(", 0)"), "{status}");
+    assert!(
+        status.starts_with("Exited(") && status.ends_with(", 0)"),
+        "{status}"
+    );
 }

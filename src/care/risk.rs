@@ -87,7 +87,9 @@ pub fn rating(likelihood: Likelihood, consequences: Consequences) -> RiskRating 
     use RiskRating::*;
     match (likelihood, consequences) {
         (L::VeryLikely, C::Minor) | (L::Likely, C::Minor) => Moderate,
-        (L::VeryLikely, C::Significant) | (L::Likely, C::Significant) | (L::Likely, C::Severe) => High,
+        (L::VeryLikely, C::Significant) | (L::Likely, C::Significant) | (L::Likely, C::Severe) => {
+            High
+        }
         (L::VeryLikely, C::Severe) => Extreme,
         (L::SomewhatLikely, C::Significant) | (L::SomewhatLikely, C::Severe) => Moderate,
         _ => Low,
@@ -138,9 +140,33 @@ mod tests {
         use LikelihoodOfFailure as F;
         use LikelihoodOfImpact as I;
         let expected = [
-            (F::Imminent, [Likelihood::Unlikely, Likelihood::SomewhatLikely, Likelihood::Likely, Likelihood::VeryLikely]),
-            (F::Probable, [Likelihood::Unlikely, Likelihood::Unlikely, Likelihood::SomewhatLikely, Likelihood::Likely]),
-            (F::Possible, [Likelihood::Unlikely, Likelihood::Unlikely, Likelihood::Unlikely, Likelihood::SomewhatLikely]),
+            (
+                F::Imminent,
+                [
+                    Likelihood::Unlikely,
+                    Likelihood::SomewhatLikely,
+                    Likelihood::Likely,
+                    Likelihood::VeryLikely,
+                ],
+            ),
+            (
+                F::Probable,
+                [
+                    Likelihood::Unlikely,
+                    Likelihood::Unlikely,
+                    Likelihood::SomewhatLikely,
+                    Likelihood::Likely,
+                ],
+            ),
+            (
+                F::Possible,
+                [
+                    Likelihood::Unlikely,
+                    Likelihood::Unlikely,
+                    Likelihood::Unlikely,
+                    Likelihood::SomewhatLikely,
+                ],
+            ),
             (F::Improbable, [Likelihood::Unlikely; 4]),
         ];
         for (failure, row) in expected {
@@ -157,15 +183,25 @@ mod tests {
         use Consequences as C;
         use RiskRating as R;
         let expected = [
-            (Likelihood::VeryLikely, [R::Low, R::Moderate, R::High, R::Extreme]),
+            (
+                Likelihood::VeryLikely,
+                [R::Low, R::Moderate, R::High, R::Extreme],
+            ),
             (Likelihood::Likely, [R::Low, R::Moderate, R::High, R::High]),
-            (Likelihood::SomewhatLikely, [R::Low, R::Low, R::Moderate, R::Moderate]),
+            (
+                Likelihood::SomewhatLikely,
+                [R::Low, R::Low, R::Moderate, R::Moderate],
+            ),
             (Likelihood::Unlikely, [R::Low; 4]),
         ];
         let mut counts = std::collections::HashMap::new();
         for (likely, row) in expected {
             for (consequence, cell) in C::ALL.iter().zip(row) {
-                assert_eq!(rating(likely, *consequence), cell, "{likely} × {consequence}");
+                assert_eq!(
+                    rating(likely, *consequence),
+                    cell,
+                    "{likely} × {consequence}"
+                );
                 *counts.entry(cell).or_insert(0) += 1;
             }
         }
@@ -177,7 +213,10 @@ mod tests {
 
     #[test]
     fn overall_is_the_highest_mode() {
-        assert_eq!(overall_rating([RiskRating::Low, RiskRating::High, RiskRating::Moderate]), Some(RiskRating::High));
+        assert_eq!(
+            overall_rating([RiskRating::Low, RiskRating::High, RiskRating::Moderate]),
+            Some(RiskRating::High)
+        );
         assert_eq!(overall_rating([]), None);
     }
 }

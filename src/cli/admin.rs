@@ -52,7 +52,9 @@ pub fn backup(inventory: &Path, target: &Path, force: bool) -> Result<(), CliErr
     let copy = Store::open_existing(target)?;
     let check = copy.integrity_check()?;
     if check != "ok" {
-        return Err(CliError::Other(anyhow::anyhow!("the backup failed its integrity check: {check}")));
+        return Err(CliError::Other(anyhow::anyhow!(
+            "the backup failed its integrity check: {check}"
+        )));
     }
     eprintln!(
         "backed up {} to {} ({} trees, integrity ok)",
@@ -76,7 +78,15 @@ pub fn species(inventory: &Path, format: ListFormat) -> Result<(), CliError> {
             ListFormat::Csv => {
                 let mut writer = csv::Writer::from_writer(&mut *out);
                 writer
-                    .write_record(["scientific_name", "common_name", "family", "leaf_habit", "sg_green", "growth_cm_per_yr", "lai"])
+                    .write_record([
+                        "scientific_name",
+                        "common_name",
+                        "family",
+                        "leaf_habit",
+                        "sg_green",
+                        "growth_cm_per_yr",
+                        "lai",
+                    ])
                     .map_err(anyhow::Error::from)?;
                 for s in &list {
                     writer
@@ -94,7 +104,11 @@ pub fn species(inventory: &Path, format: ListFormat) -> Result<(), CliError> {
                 writer.flush()?;
             }
             ListFormat::Table => {
-                writeln!(out, "{:<28} {:<28} {:<16} {:>5} {:>6}", "botanical name", "common name", "family", "SG", "cm/yr")?;
+                writeln!(
+                    out,
+                    "{:<28} {:<28} {:<16} {:>5} {:>6}",
+                    "botanical name", "common name", "family", "SG", "cm/yr"
+                )?;
                 for s in &list {
                     writeln!(
                         out,

@@ -48,7 +48,10 @@ struct TownStation {
 pub fn write_demo(out: &Path, force: bool) -> Result<String, CliError> {
     if out.exists() {
         if !force {
-            return Err(CliError::Input(format!("{} already exists; pass --force to replace it", out.display())));
+            return Err(CliError::Input(format!(
+                "{} already exists; pass --force to replace it",
+                out.display()
+            )));
         }
         for suffix in ["", "-wal", "-shm"] {
             let mut name = out.as_os_str().to_os_string();
@@ -72,17 +75,21 @@ pub fn write_demo(out: &Path, force: bool) -> Result<String, CliError> {
 
 /// Loads the embedded demo files into an (empty) store; returns the town's name.
 pub fn load_demo(store: &mut Store) -> Result<String, CliError> {
-    let internal = |what: &str, detail: String| CliError::Other(anyhow::anyhow!("demo {what}: {detail}"));
-    let town: Town = serde_json::from_str(TOWN_JSON).map_err(|e| internal("town.json", e.to_string()))?;
+    let internal =
+        |what: &str, detail: String| CliError::Other(anyhow::anyhow!("demo {what}: {detail}"));
+    let town: Town =
+        serde_json::from_str(TOWN_JSON).map_err(|e| internal("town.json", e.to_string()))?;
     let now = demo_now();
     let actor = "demo";
 
-    let (zones, zone_errors) = zones_geojson::read_zones(ZONES_GEOJSON).map_err(|e| internal("zones", e.reason))?;
+    let (zones, zone_errors) =
+        zones_geojson::read_zones(ZONES_GEOJSON).map_err(|e| internal("zones", e.reason))?;
     if let Some(error) = zone_errors.first() {
         return Err(internal("zones", error.to_string()));
     }
 
-    let weather = weather_csv::read_weather_csv(WEATHER_CSV.as_bytes()).map_err(|e| internal("weather", e.reason))?;
+    let weather = weather_csv::read_weather_csv(WEATHER_CSV.as_bytes())
+        .map_err(|e| internal("weather", e.reason))?;
     if let Some(bad) = weather.bad.first() {
         return Err(internal("weather", format!("{:?}", bad.errors)));
     }
@@ -98,8 +105,14 @@ pub fn load_demo(store: &mut Store) -> Result<String, CliError> {
 
     let lookup = SpeciesLookup::new(&store.species()?);
     let today: NaiveDate = now.date_naive();
-    let trees = read_trees_csv(TREES_CSV.as_bytes(), ValidationContext { species: &lookup, today })
-        .map_err(|e| internal("trees", e.reason))?;
+    let trees = read_trees_csv(
+        TREES_CSV.as_bytes(),
+        ValidationContext {
+            species: &lookup,
+            today,
+        },
+    )
+    .map_err(|e| internal("trees", e.reason))?;
     if let Some(bad) = trees.bad.first() {
         return Err(internal("trees", format!("{:?}", bad.errors)));
     }
@@ -107,14 +120,14 @@ pub fn load_demo(store: &mut Store) -> Result<String, CliError> {
     store.import_trees(&rows, actor, now, false)?;
     load_zones(store, &zones, actor)?;
 
-    let (assessments, bad) =
-        care_csv::read_assessments(ASSESSMENTS_CSV.as_bytes()).map_err(|e| internal("assessments", e.reason))?;
+    let (assessments, bad) = care_csv::read_assessments(ASSESSMENTS_CSV.as_bytes())
+        .map_err(|e| internal("assessments", e.reason))?;
     if let Some(bad) = bad.first() {
         return Err(internal("assessments", format!("{:?}", bad.errors)));
     }
     store.import_assessments(&assessments, actor, now)?;
-    let (orders, bad) =
-        care_csv::read_work_orders(WORK_ORDERS_CSV.as_bytes()).map_err(|e| internal("work orders", e.reason))?;
+    let (orders, bad) = care_csv::read_work_orders(WORK_ORDERS_CSV.as_bytes())
+        .map_err(|e| internal("work orders", e.reason))?;
     if let Some(bad) = bad.first() {
         return Err(internal("work orders", format!("{:?}", bad.errors)));
     }

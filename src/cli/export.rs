@@ -34,25 +34,38 @@ pub enum TreeFormat {
 /// Runs an export subcommand.
 pub fn run(inventory: &Path, command: &ExportCommand) -> Result<(), CliError> {
     match command {
-        ExportCommand::Trees { format, out, history } => export_trees(inventory, *format, out.as_deref(), *history),
+        ExportCommand::Trees {
+            format,
+            out,
+            history,
+        } => export_trees(inventory, *format, out.as_deref(), *history),
     }
 }
 
-fn export_trees(inventory: &Path, format: TreeFormat, out: Option<&Path>, history: bool) -> Result<(), CliError> {
+fn export_trees(
+    inventory: &Path,
+    format: TreeFormat,
+    out: Option<&Path>,
+    history: bool,
+) -> Result<(), CliError> {
     let store = open_store(inventory)?;
     with_output(out, inventory, |sink| {
         match format {
             TreeFormat::Csv => {
                 let mut writer = TreesCsvWriter::new(sink).map_err(super::csv_error)?;
                 store.for_each_tree_record(history, |tree| {
-                    writer.write(&tree.uid, &tree.record).map_err(super::csv_error)
+                    writer
+                        .write(&tree.uid, &tree.record)
+                        .map_err(super::csv_error)
                 })?;
                 writer.finish()?;
             }
             TreeFormat::Geojson => {
                 let mut writer = GeoJsonWriter::new(sink)?;
                 store.for_each_tree_record(history, |tree| {
-                    writer.write(&tree.uid, &tree.record, &[]).map_err(CliError::from)
+                    writer
+                        .write(&tree.uid, &tree.record, &[])
+                        .map_err(CliError::from)
                 })?;
                 writer.finish()?;
             }

@@ -63,11 +63,34 @@ pub enum ImportCommand {
 /// Runs an import subcommand.
 pub fn run(inventory: &Path, command: &ImportCommand, now: DateTime<Utc>) -> Result<(), CliError> {
     match command {
-        ImportCommand::Trees { file, dry_run, keep_good, rejects } => {
-            import_trees(inventory, file, *dry_run, keep_good.then_some(()).and(rejects.as_deref()), now)
-        }
-        ImportCommand::Weather { file, station, lat, lon, elevation, coastal, dry_run } => {
-            let station = StationInfo { name: station.clone(), lat: *lat, lon: *lon, elevation_m: *elevation, coastal: *coastal };
+        ImportCommand::Trees {
+            file,
+            dry_run,
+            keep_good,
+            rejects,
+        } => import_trees(
+            inventory,
+            file,
+            *dry_run,
+            keep_good.then_some(()).and(rejects.as_deref()),
+            now,
+        ),
+        ImportCommand::Weather {
+            file,
+            station,
+            lat,
+            lon,
+            elevation,
+            coastal,
+            dry_run,
+        } => {
+            let station = StationInfo {
+                name: station.clone(),
+                lat: *lat,
+                lon: *lon,
+                elevation_m: *elevation,
+                coastal: *coastal,
+            };
             import_weather(inventory, file, &station, *dry_run)
         }
         ImportCommand::Zones { file } => import_zones(inventory, file),
@@ -97,7 +120,10 @@ fn import_trees(
     let mut store = open_store(inventory)?;
     let bytes = read_file(file)?;
     let lookup = SpeciesLookup::new(&store.species()?);
-    let ctx = ValidationContext { species: &lookup, today: now.date_naive() };
+    let ctx = ValidationContext {
+        species: &lookup,
+        today: now.date_naive(),
+    };
     let parsed = read_trees_csv(bytes.as_slice(), ctx)
         .map_err(|e| CliError::Input(format!("{}:{}: {}", file.display(), e.line, e.reason)))?;
     let total = parsed.good.len() + parsed.bad.len();
@@ -111,8 +137,9 @@ fn import_trees(
                 )));
             }
             Some(rejects_path) if !dry_run => {
-                let out = std::fs::File::create(rejects_path)
-                    .map_err(|e| CliError::Input(format!("cannot write {}: {e}", rejects_path.display())))?;
+                let out = std::fs::File::create(rejects_path).map_err(|e| {
+                    CliError::Input(format!("cannot write {}: {e}", rejects_path.display()))
+                })?;
                 write_rejects(out, &parsed.headers, &parsed.bad).map_err(anyhow::Error::from)?;
             }
             Some(_) => {}
@@ -130,20 +157,31 @@ fn import_trees(
         outcome.trees_updated,
         outcome.measurements_added,
         outcome.measurements_unchanged,
-        if dry_run { " (dry run: nothing written)" } else { "" }
+        if dry_run {
+            " (dry run: nothing written)"
+        } else {
+            ""
+        }
     );
     if let (Some(path), false) = (rejects, parsed.bad.is_empty()) {
         eprintln!(
             "{} rows rejected{}",
             parsed.bad.len(),
-            if dry_run { String::new() } else { format!(", written with their reasons to {}", path.display()) }
+            if dry_run {
+                String::new()
+            } else {
+                format!(", written with their reasons to {}", path.display())
+            }
         );
     }
     Ok(())
 }
 
 /// Adds the zone of each row from the stored zone polygons.
-pub fn with_zones(store: &Store, good: Vec<(u64, crate::model::TreeRecord)>) -> Result<Vec<TreeImportRow>, CliError> {
+pub fn with_zones(
+    store: &Store,
+    good: Vec<(u64, crate::model::TreeRecord)>,
+) -> Result<Vec<TreeImportRow>, CliError> {
     let index = zone_index(store)?;
     Ok(good
         .into_iter()
@@ -152,7 +190,11 @@ pub fn with_zones(store: &Store, good: Vec<(u64, crate::model::TreeRecord)>) -> 
                 (Some(lon), Some(lat)) => index.zone_of(lon, lat),
                 _ => None,
             };
-            TreeImportRow { line, record, zone_id }
+            TreeImportRow {
+                line,
+                record,
+                zone_id,
+            }
         })
         .collect())
 }
@@ -160,9 +202,15 @@ pub fn with_zones(store: &Store, good: Vec<(u64, crate::model::TreeRecord)>) -> 
 fn zone_index(store: &Store) -> Result<ZoneIndex, CliError> {
     let mut shapes = Vec::new();
     for (id, name, json) in store.zones()? {
-        let text = format!(r#"{{"type":"FeatureCollection","features":[{{"type":"Feature","properties":{{"name":"x"}},"geometry":{json}}}]}}"#);
-        let (zones, _) = zones_geojson::read_zones(&text)
-            .map_err(|e| CliError::Other(anyhow::anyhow!("stored zone '{name}' is unreadable: {}", e.reason)))?;
+        let text = format!(
+            r#"{{"type":"FeatureCollection","features":[{{"type":"Feature","properties":{{"name":"x"}},"geometry":{json}}}]}}"#
+        );
+        let (zones, _) = zones_geojson::read_zones(&text).map_err(|e| {
+            CliError::Other(anyhow::anyhow!(
+                "stored zone '{name}' is unreadable: {}",
+                e.reason
+            ))
+        })?;
         for zone in zones {
             shapes.push((id, zone.shape));
         }
@@ -172,19 +220,33 @@ fn zone_index(store: &Store) -> Result<ZoneIndex, CliError> {
 
 fn prefix_file(file: &Path, error: crate::store::StoreError) -> CliError {
     match error {
-        crate::store::StoreError::Row { line, message } => {
-            CliError::Input(format!("{}:{line}: {message}\nnothing was written", file.display()))
-        }
+        crate::store::StoreError::Row { line, message } => CliError::Input(format!(
+            "{}:{line}: {message}\nnothing was written",
+            file.display()
+        )),
         other => other.into(),
     }
 }
 
-fn import_weather(inventory: &Path, file: &Path, station: &StationInfo, dry_run: bool) -> Result<(), CliError> {
+fn import_weather(
+    inventory: &Path,
+    file: &Path,
+    station: &StationInfo,
+    dry_run: bool,
+) -> Result<(), CliError> {
     if !(-90.0..=90.0).contains(&station.lat) {
-        return Err(CliError::Input(format!("--lat {} is out of range (-90 to 90)", station.lat)));
+        return Err(CliError::Input(format!(
+            "--lat {} is out of range (-90 to 90)",
+            station.lat
+        )));
     }
-    if station.lon.is_some_and(|lon| !(-180.0..=180.0).contains(&lon)) {
-        return Err(CliError::Input("--lon is out of range (-180 to 180)".to_string()));
+    if station
+        .lon
+        .is_some_and(|lon| !(-180.0..=180.0).contains(&lon))
+    {
+        return Err(CliError::Input(
+            "--lon is out of range (-180 to 180)".to_string(),
+        ));
     }
     let mut store = open_store(inventory)?;
     let bytes = read_file(file)?;
@@ -206,7 +268,11 @@ fn import_weather(inventory: &Path, file: &Path, station: &StationInfo, dry_run:
         if dry_run { "would import" } else { "imported" },
         outcome.days_written,
         station.name,
-        if dry_run { " (dry run: nothing written)" } else { "" }
+        if dry_run {
+            " (dry run: nothing written)"
+        } else {
+            ""
+        }
     );
     Ok(())
 }
@@ -219,20 +285,39 @@ fn import_zones(inventory: &Path, file: &Path) -> Result<(), CliError> {
         .map_err(|e| CliError::Input(format!("{}: {}", file.display(), e.reason)))?;
     if !errors.is_empty() {
         for error in &errors {
-            eprintln!("{}: feature {}: {}: {}", file.display(), error.line, error.field, error.reason);
+            eprintln!(
+                "{}: feature {}: {}: {}",
+                file.display(),
+                error.line,
+                error.field,
+                error.reason
+            );
         }
-        return Err(CliError::Input(format!("nothing was written: {} features have errors", errors.len())));
+        return Err(CliError::Input(format!(
+            "nothing was written: {} features have errors",
+            errors.len()
+        )));
     }
     let assigned = load_zones(&mut store, &zones, "import")?;
-    eprintln!("imported {} zones; {assigned} trees changed zone", zones.len());
+    eprintln!(
+        "imported {} zones; {assigned} trees changed zone",
+        zones.len()
+    );
     Ok(())
 }
 
 /// Stores zones and reassigns every tree with coordinates to the zone containing it.
-pub fn load_zones(store: &mut Store, zones: &[zones_geojson::ZoneShape], actor: &str) -> Result<usize, CliError> {
+pub fn load_zones(
+    store: &mut Store,
+    zones: &[zones_geojson::ZoneShape],
+    actor: &str,
+) -> Result<usize, CliError> {
     let records: Vec<ZoneRecord> = zones
         .iter()
-        .map(|z| ZoneRecord { name: z.name.clone(), geometry_json: z.geometry_json.clone() })
+        .map(|z| ZoneRecord {
+            name: z.name.clone(),
+            geometry_json: z.geometry_json.clone(),
+        })
         .collect();
     store.upsert_zones(&records, actor)?;
     let index = zone_index(store)?;

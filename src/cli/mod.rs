@@ -114,7 +114,11 @@ impl From<std::io::Error> for CliError {
 }
 
 /// Runs a parsed command line that has a subcommand. (No subcommand opens the TUI; see `main`.)
-pub fn run(cli: &Cli, command: &Command, now: chrono::DateTime<chrono::Utc>) -> Result<(), CliError> {
+pub fn run(
+    cli: &Cli,
+    command: &Command,
+    now: chrono::DateTime<chrono::Utc>,
+) -> Result<(), CliError> {
     match command {
         Command::Init { file } => admin::init(file),
         Command::Demo { out, force } => demo::write_demo(out, *force).map(|summary| {
@@ -146,9 +150,12 @@ pub fn inventory_path(cli: &Cli) -> Result<PathBuf, CliError> {
 
 /// Where the demo inventory lives when no `--db` is given.
 pub fn default_demo_path() -> Result<PathBuf, CliError> {
-    let dirs = directories::ProjectDirs::from("org", "Streetwood", "streetwood").ok_or_else(|| {
-        CliError::Input("no home directory found; pass --db FILE or set STREETWOOD_DB".to_string())
-    })?;
+    let dirs =
+        directories::ProjectDirs::from("org", "Streetwood", "streetwood").ok_or_else(|| {
+            CliError::Input(
+                "no home directory found; pass --db FILE or set STREETWOOD_DB".to_string(),
+            )
+        })?;
     Ok(dirs.data_dir().join("demo-inventory.db"))
 }
 
@@ -202,7 +209,10 @@ pub fn with_output(
 }
 
 fn partial_path(path: &Path) -> PathBuf {
-    let mut name = path.file_name().map(|n| n.to_os_string()).unwrap_or_default();
+    let mut name = path
+        .file_name()
+        .map(|n| n.to_os_string())
+        .unwrap_or_default();
     name.push(".partial");
     path.with_file_name(name)
 }

@@ -8,7 +8,9 @@ use chrono::NaiveDate;
 
 use super::trees_csv::BadRow;
 use super::{FileError, RowError, csv_unsafe, parse_number};
-use crate::care::risk::{Consequences, LikelihoodOfFailure, LikelihoodOfImpact, Occupancy, TreePart};
+use crate::care::risk::{
+    Consequences, LikelihoodOfFailure, LikelihoodOfImpact, Occupancy, TreePart,
+};
 
 /// One assessed failure mode of one tree.
 #[derive(Debug, Clone, PartialEq)]
@@ -29,7 +31,9 @@ pub struct AssessmentRow {
 }
 
 /// Work order tasks (DESIGN.md data model).
-pub const TASKS: [&str; 8] = ["prune", "remove", "plant", "stake", "water", "inspect", "stump", "other"];
+pub const TASKS: [&str; 8] = [
+    "prune", "remove", "plant", "stake", "water", "inspect", "stump", "other",
+];
 /// Work order statuses.
 pub const WORK_STATUSES: [&str; 4] = ["open", "scheduled", "done", "cancelled"];
 
@@ -47,6 +51,9 @@ pub struct WorkOrderRow {
     pub notes: Option<String>,
 }
 
+/// Rows read from a file: the good ones with their lines, and the bad ones.
+pub type ReadRows<T> = Result<(Vec<(u64, T)>, Vec<BadRow>), FileError>;
+
 struct Cells<'a> {
     headers: &'a [String],
     raw: &'a [String],
@@ -61,7 +68,11 @@ impl Cells<'_> {
         (!cell.is_empty()).then(|| csv_unsafe(cell).to_string())
     }
     fn fail(&mut self, field: &str, reason: String) {
-        self.errors.push(RowError { line: self.line, field: field.to_string(), reason });
+        self.errors.push(RowError {
+            line: self.line,
+            field: field.to_string(),
+            reason,
+        });
     }
     fn required(&mut self, name: &str) -> Option<String> {
         let value = self.text(name);
@@ -71,11 +82,18 @@ impl Cells<'_> {
         value
     }
     fn date(&mut self, name: &str, required: bool) -> Option<NaiveDate> {
-        let text = if required { self.required(name)? } else { self.text(name)? };
+        let text = if required {
+            self.required(name)?
+        } else {
+            self.text(name)?
+        };
         match NaiveDate::parse_from_str(&text, "%Y-%m-%d") {
             Ok(date) => Some(date),
             Err(_) => {
-                self.fail(name, format!("'{text}' is not an ISO 8601 date (YYYY-MM-DD)"));
+                self.fail(
+                    name,
+                    format!("'{text}' is not an ISO 8601 date (YYYY-MM-DD)"),
+                );
                 None
             }
         }
@@ -94,7 +112,11 @@ impl Cells<'_> {
             }
         }
     }
-    fn word<T>(&mut self, name: &str, parse: impl Fn(&str) -> Result<T, crate::model::BadWord>) -> Option<T> {
+    fn word<T>(
+        &mut self,
+        name: &str,
+        parse: impl Fn(&str) -> Result<T, crate::model::BadWord>,
+    ) -> Option<T> {
         let text = self.required(name)?;
         match parse(&text) {
             Ok(value) => Some(value),
@@ -109,7 +131,10 @@ impl Cells<'_> {
         if allowed.contains(&text.as_str()) {
             Some(text)
         } else {
-            self.fail(name, format!("'{text}' is not one of: {}", allowed.join(" ")));
+            self.fail(
+                name,
+                format!("'{text}' is not one of: {}", allowed.join(" ")),
+            );
             None
         }
     }
@@ -118,7 +143,10 @@ impl Cells<'_> {
         match text.parse::<u8>() {
             Ok(value) if (low..=high).contains(&value) => Some(value),
             _ => {
-                self.fail(name, format!("'{text}' must be a whole number from {low} to {high}"));
+                self.fail(
+                    name,
+                    format!("'{text}' must be a whole number from {low} to {high}"),
+                );
                 None
             }
         }
@@ -129,26 +157,43 @@ fn read_rows<T>(
     input: impl Read,
     required_headers: &[&str],
     mut build: impl FnMut(&mut Cells<'_>) -> Option<T>,
-) -> Result<(Vec<(u64, T)>, Vec<BadRow>), FileError> {
+) -> ReadRows<T> {
     let mut reader = csv::ReaderBuilder::new().flexible(true).from_reader(input);
     let headers: Vec<String> = reader
         .headers()
-        .map_err(|e| FileError { line: 1, reason: e.to_string() })?
+        .map_err(|e| FileError {
+            line: 1,
+            reason: e.to_string(),
+        })?
         .iter()
         .map(|h| h.trim().trim_start_matches('\u{feff}').to_ascii_lowercase())
         .collect();
     for header in &headers {
         if !required_headers.contains(&header.as_str()) {
-            return Err(FileError { line: 1, reason: format!("unknown column '{header}'; expected: {}", required_headers.join(",")) });
+            return Err(FileError {
+                line: 1,
+                reason: format!(
+                    "unknown column '{header}'; expected: {}",
+                    required_headers.join(",")
+                ),
+            });
         }
     }
     let mut good = Vec::new();
     let mut bad = Vec::new();
     for result in reader.records() {
-        let record = result.map_err(|e| FileError { line: e.position().map(|p| p.line()).unwrap_or(0), reason: e.to_string() })?;
+        let record = result.map_err(|e| FileError {
+            line: e.position().map(|p| p.line()).unwrap_or(0),
+            reason: e.to_string(),
+        })?;
         let line = record.position().map(|p| p.line()).unwrap_or(0);
         let raw: Vec<String> = record.iter().map(str::to_string).collect();
-        let mut cells = Cells { headers: &headers, raw: &raw, line, errors: Vec::new() };
+        let mut cells = Cells {
+            headers: &headers,
+            raw: &raw,
+            line,
+            errors: Vec::new(),
+        };
         let built = build(&mut cells);
         match (built, cells.errors.is_empty()) {
             (Some(value), true) => good.push((line, value)),
@@ -162,10 +207,21 @@ fn read_rows<T>(
 }
 
 /// Reads assessments (one failure mode per row).
-pub fn read_assessments(input: impl Read) -> Result<(Vec<(u64, AssessmentRow)>, Vec<BadRow>), FileError> {
+pub fn read_assessments(input: impl Read) -> ReadRows<AssessmentRow> {
     let headers = [
-        "tree_uid", "assessed_on", "assessor", "level", "part", "part_size_cm", "target", "occupancy",
-        "likelihood_of_failure", "likelihood_of_impact", "consequences", "mitigation", "notes",
+        "tree_uid",
+        "assessed_on",
+        "assessor",
+        "level",
+        "part",
+        "part_size_cm",
+        "target",
+        "occupancy",
+        "likelihood_of_failure",
+        "likelihood_of_impact",
+        "consequences",
+        "mitigation",
+        "notes",
     ];
     read_rows(input, &headers, |c| {
         let tree_uid = c.required("tree_uid");
@@ -196,8 +252,10 @@ pub fn read_assessments(input: impl Read) -> Result<(Vec<(u64, AssessmentRow)>, 
 }
 
 /// Reads work orders.
-pub fn read_work_orders(input: impl Read) -> Result<(Vec<(u64, WorkOrderRow)>, Vec<BadRow>), FileError> {
-    let headers = ["tree_uid", "task", "priority", "status", "due_on", "done_on", "crew", "cost", "notes"];
+pub fn read_work_orders(input: impl Read) -> ReadRows<WorkOrderRow> {
+    let headers = [
+        "tree_uid", "task", "priority", "status", "due_on", "done_on", "crew", "cost", "notes",
+    ];
     read_rows(input, &headers, |c| {
         let tree_uid = c.required("tree_uid");
         let task = c.one_of("task", &TASKS);
@@ -207,7 +265,10 @@ pub fn read_work_orders(input: impl Read) -> Result<(Vec<(u64, WorkOrderRow)>, V
         let done_on = c.date("done_on", false);
         let estimated_cost = c.number("cost");
         if status.as_deref() == Some("done") && done_on.is_none() {
-            c.fail("done_on", "a done work order needs its done_on date".to_string());
+            c.fail(
+                "done_on",
+                "a done work order needs its done_on date".to_string(),
+            );
         }
         Some(WorkOrderRow {
             tree_uid: tree_uid?,

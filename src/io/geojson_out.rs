@@ -22,7 +22,12 @@ impl<W: Write> GeoJsonWriter<W> {
     }
 
     /// Writes one tree; `extra` properties (e.g. benefit columns) follow the tree's own.
-    pub fn write(&mut self, uid: &str, tree: &TreeRecord, extra: &[(&str, Value)]) -> std::io::Result<()> {
+    pub fn write(
+        &mut self,
+        uid: &str,
+        tree: &TreeRecord,
+        extra: &[(&str, Value)],
+    ) -> std::io::Result<()> {
         let mut properties = tree_properties(uid, tree);
         for (key, value) in extra {
             properties.insert((*key).to_string(), value.clone());
@@ -59,21 +64,48 @@ pub fn tree_properties(uid: &str, tree: &TreeRecord) -> Map<String, Value> {
     p.insert("lat".into(), num(tree.lat));
     p.insert("street".into(), text(&tree.street));
     p.insert("house_number".into(), text(&tree.house_number));
-    p.insert("site_kind".into(), tree.site_kind.map(|s| Value::from(s.as_str())).unwrap_or(Value::Null));
-    p.insert("planted_on".into(), tree.planted_on.map(|d| Value::from(d.to_string())).unwrap_or(Value::Null));
-    p.insert("status".into(), tree.status.map(|s| Value::from(s.as_str())).unwrap_or(Value::Null));
-    p.insert("measured_on".into(), Value::from(tree.measured_on.to_string()));
+    p.insert(
+        "site_kind".into(),
+        tree.site_kind
+            .map(|s| Value::from(s.as_str()))
+            .unwrap_or(Value::Null),
+    );
+    p.insert(
+        "planted_on".into(),
+        tree.planted_on
+            .map(|d| Value::from(d.to_string()))
+            .unwrap_or(Value::Null),
+    );
+    p.insert(
+        "status".into(),
+        tree.status
+            .map(|s| Value::from(s.as_str()))
+            .unwrap_or(Value::Null),
+    );
+    p.insert(
+        "measured_on".into(),
+        Value::from(tree.measured_on.to_string()),
+    );
     p.insert("dbh_cm".into(), Value::from(tree.dbh_cm()));
     p.insert(
         "stems_cm".into(),
-        if tree.multi_stem { Value::from(super::format_stems(&tree.stems_cm)) } else { Value::Null },
+        if tree.multi_stem {
+            Value::from(super::format_stems(&tree.stems_cm))
+        } else {
+            Value::Null
+        },
     );
     p.insert("height_m".into(), num(tree.height_m));
     p.insert("crown_base_m".into(), num(tree.crown_base_m));
     p.insert("crown_width_m".into(), num(tree.crown_width_m));
     p.insert("crown_width2_m".into(), num(tree.crown_width2_m));
     p.insert("dieback_pct".into(), num(tree.dieback_pct));
-    p.insert("condition".into(), tree.condition.map(|c| Value::from(c.as_str())).unwrap_or(Value::Null));
+    p.insert(
+        "condition".into(),
+        tree.condition
+            .map(|c| Value::from(c.as_str()))
+            .unwrap_or(Value::Null),
+    );
     p.insert("notes".into(), text(&tree.notes));
     p
 }

@@ -1,8 +1,8 @@
 //! Exchange formats: parsers and writers that return rows and row-level errors. Nothing here touches
 //! the store.
 
-pub mod geojson_out;
 pub mod care_csv;
+pub mod geojson_out;
 pub mod species_lookup;
 pub mod trees_csv;
 pub mod weather_csv;
@@ -48,7 +48,8 @@ pub fn format_stems(stems_cm: &[f64]) -> String {
 pub fn parse_stems(text: &str) -> Result<Vec<f64>, String> {
     let mut stems = Vec::new();
     for part in text.split(';') {
-        let value = parse_number(part).map_err(|reason| format!("stem '{}': {reason}", part.trim()))?;
+        let value =
+            parse_number(part).map_err(|reason| format!("stem '{}': {reason}", part.trim()))?;
         if value <= 0.0 {
             return Err(format!("stem '{}' must be greater than 0", part.trim()));
         }

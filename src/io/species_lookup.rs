@@ -54,7 +54,10 @@ impl SpeciesLookup {
         match self.by_name.get(&key) {
             Some(name) => Ok(name.as_str()),
             None => Err(match self.suggest(&key) {
-                Some(best) => format!("unknown species '{}' (did you mean '{best}'?)", typed.trim()),
+                Some(best) => format!(
+                    "unknown species '{}' (did you mean '{best}'?)",
+                    typed.trim()
+                ),
                 None => format!(
                     "unknown species '{}' (not in the species list; see `streetwood species`)",
                     typed.trim()
@@ -130,7 +133,10 @@ mod tests {
         let message = lookup.resolve("Acer rubrm").err().unwrap_or_default();
         assert!(message.contains("did you mean 'Acer rubrum'"), "{message}");
         let message = lookup.resolve("red mapel").err().unwrap_or_default();
-        assert!(message.contains("did you mean 'Acer rubrum (red maple)'"), "{message}");
+        assert!(
+            message.contains("did you mean 'Acer rubrum (red maple)'"),
+            "{message}"
+        );
         let message = lookup.resolve("Sequoia").err().unwrap_or_default();
         assert!(!message.contains("did you mean"), "{message}");
     }

@@ -110,7 +110,10 @@ impl Column {
 
     /// The column a header names, and the factor its values take to SI (1 for SI headers).
     pub fn from_header(header: &str) -> Option<(Column, f64)> {
-        let header = header.trim().trim_start_matches('\u{feff}').to_ascii_lowercase();
+        let header = header
+            .trim()
+            .trim_start_matches('\u{feff}')
+            .to_ascii_lowercase();
         Column::ALL.iter().find_map(|&column| {
             if column.name() == header {
                 Some((column, 1.0))
@@ -159,13 +162,20 @@ pub fn validate_tree_fields<'a>(
             }
         }
     };
-    let field_name = |column: Column| get(column).map(|v| v.field.to_string()).unwrap_or_else(|| column.name().to_string());
+    let field_name = |column: Column| {
+        get(column)
+            .map(|v| v.field.to_string())
+            .unwrap_or_else(|| column.name().to_string())
+    };
 
     let uid = text(Column::Uid);
     if let Some(uid) = &uid
         && (uid.len() > 100 || uid.chars().any(char::is_control))
     {
-        fail("uid", "must be at most 100 characters with no control characters".to_string());
+        fail(
+            "uid",
+            "must be at most 100 characters with no control characters".to_string(),
+        );
     }
 
     let species = match get(Column::Species) {
@@ -187,7 +197,10 @@ pub fn validate_tree_fields<'a>(
     if let Some(lon) = lon
         && !(-180.0..=180.0).contains(&lon)
     {
-        fail("lon", format!("{lon} is out of range (-180 to 180 degrees)"));
+        fail(
+            "lon",
+            format!("{lon} is out of range (-180 to 180 degrees)"),
+        );
     }
     if let Some(lat) = lat
         && !(-90.0..=90.0).contains(&lat)
@@ -195,8 +208,14 @@ pub fn validate_tree_fields<'a>(
         fail("lat", format!("{lat} is out of range (-90 to 90 degrees)"));
     }
     match (get(Column::Lon).is_some(), get(Column::Lat).is_some()) {
-        (true, false) => fail("lat", "lon is given without lat; give both or neither".to_string()),
-        (false, true) => fail("lon", "lat is given without lon; give both or neither".to_string()),
+        (true, false) => fail(
+            "lat",
+            "lon is given without lat; give both or neither".to_string(),
+        ),
+        (false, true) => fail(
+            "lon",
+            "lat is given without lon; give both or neither".to_string(),
+        ),
         _ => {}
     }
 
@@ -207,24 +226,42 @@ pub fn validate_tree_fields<'a>(
         && planted > ctx.today
         && status != Some(TreeStatus::Planned)
     {
-        fail("planted_on", format!("{planted} is in the future (only a planned tree may have a future planting date)"));
+        fail(
+            "planted_on",
+            format!(
+                "{planted} is in the future (only a planned tree may have a future planting date)"
+            ),
+        );
     }
     let measured_on = date(get(Column::MeasuredOn), &mut fail);
     if let Some(measured) = measured_on
         && measured > ctx.today
     {
-        fail(&field_name(Column::MeasuredOn), format!("{measured} is in the future"));
+        fail(
+            &field_name(Column::MeasuredOn),
+            format!("{measured} is in the future"),
+        );
     }
 
     let dbh = number(Column::Dbh, &mut fail);
     if let Some(dbh) = dbh {
-        check_range(&field_name(Column::Dbh), dbh, 0.0, MAX_DBH_CM, "cm", &mut fail);
+        check_range(
+            &field_name(Column::Dbh),
+            dbh,
+            0.0,
+            MAX_DBH_CM,
+            "cm",
+            &mut fail,
+        );
     }
     let stems = get(Column::Stems).and_then(|value| match parse_stems(value.text) {
         Ok(stems) => {
             let stems: Vec<f64> = stems.iter().map(|d| d * value.to_si).collect();
             if stems.len() > 50 {
-                fail(value.field, format!("{} stems; at most 50 are accepted", stems.len()));
+                fail(
+                    value.field,
+                    format!("{} stems; at most 50 are accepted", stems.len()),
+                );
             }
             for stem in &stems {
                 check_range(value.field, *stem, 0.0, MAX_DBH_CM, "cm", &mut fail);
@@ -243,7 +280,9 @@ pub fn validate_tree_fields<'a>(
                 if (equivalent - dbh).abs() > DBH_STEMS_TOLERANCE_CM {
                     fail(
                         &field_name(Column::Dbh),
-                        format!("{dbh} cm does not match the stems (equivalent DBH √Σd² = {equivalent:.2} cm); give one or make them agree"),
+                        format!(
+                            "{dbh} cm does not match the stems (equivalent DBH √Σd² = {equivalent:.2} cm); give one or make them agree"
+                        ),
                     );
                 }
             }
@@ -260,37 +299,62 @@ pub fn validate_tree_fields<'a>(
 
     let height = number(Column::Height, &mut fail);
     if let Some(height) = height {
-        check_range(&field_name(Column::Height), height, 0.0, MAX_HEIGHT_M, "m", &mut fail);
+        check_range(
+            &field_name(Column::Height),
+            height,
+            0.0,
+            MAX_HEIGHT_M,
+            "m",
+            &mut fail,
+        );
     }
     let crown_base = number(Column::CrownBase, &mut fail);
     if let Some(base) = crown_base {
         if base < 0.0 {
-            fail(&field_name(Column::CrownBase), format!("{base} m must not be negative"));
+            fail(
+                &field_name(Column::CrownBase),
+                format!("{base} m must not be negative"),
+            );
         } else if let Some(height) = height
             && base >= height
         {
-            fail(&field_name(Column::CrownBase), format!("{base} m must be below the tree height ({height} m)"));
+            fail(
+                &field_name(Column::CrownBase),
+                format!("{base} m must be below the tree height ({height} m)"),
+            );
         }
     }
     let crown_width = number(Column::CrownWidth, &mut fail);
     let crown_width2 = number(Column::CrownWidth2, &mut fail);
-    for (column, value) in [(Column::CrownWidth, crown_width), (Column::CrownWidth2, crown_width2)] {
+    for (column, value) in [
+        (Column::CrownWidth, crown_width),
+        (Column::CrownWidth2, crown_width2),
+    ] {
         if let Some(width) = value
             && !(0.0..=MAX_CROWN_WIDTH_M).contains(&width)
         {
-            fail(&field_name(column), format!("{width} m is not a plausible crown spread (0 to {MAX_CROWN_WIDTH_M} m)"));
+            fail(
+                &field_name(column),
+                format!("{width} m is not a plausible crown spread (0 to {MAX_CROWN_WIDTH_M} m)"),
+            );
         }
     }
     let dieback = number(Column::DiebackPct, &mut fail);
     if let Some(dieback) = dieback
         && !(0.0..=100.0).contains(&dieback)
     {
-        fail("dieback_pct", format!("{dieback} must be between 0 and 100"));
+        fail(
+            "dieback_pct",
+            format!("{dieback} must be between 0 and 100"),
+        );
     }
     let condition = get(Column::Condition).and_then(|value| {
         let parsed = ConditionWord::parse(value.text);
         if parsed.is_none() {
-            fail(value.field, format!("'{}' is not one of: good fair poor dead", value.text.trim()));
+            fail(
+                value.field,
+                format!("'{}' is not one of: good fair poor dead", value.text.trim()),
+            );
         }
         parsed
     });
@@ -321,9 +385,21 @@ pub fn validate_tree_fields<'a>(
     })
 }
 
-fn check_range(field: &str, value: f64, above: f64, max: f64, unit: &str, fail: &mut dyn FnMut(&str, String)) {
+fn check_range(
+    field: &str,
+    value: f64,
+    above: f64,
+    max: f64,
+    unit: &str,
+    fail: &mut dyn FnMut(&str, String),
+) {
     if value <= above || value > max {
-        fail(field, format!("{value} {unit} is not plausible (must be more than {above} and at most {max} {unit})"));
+        fail(
+            field,
+            format!(
+                "{value} {unit} is not plausible (must be more than {above} and at most {max} {unit})"
+            ),
+        );
     }
 }
 
@@ -347,7 +423,13 @@ fn date(value: Option<FieldValue<'_>>, fail: &mut dyn FnMut(&str, String)) -> Op
     match NaiveDate::parse_from_str(value.text.trim(), "%Y-%m-%d") {
         Ok(date) => Some(date),
         Err(_) => {
-            fail(value.field, format!("'{}' is not an ISO 8601 date (YYYY-MM-DD)", value.text.trim()));
+            fail(
+                value.field,
+                format!(
+                    "'{}' is not an ISO 8601 date (YYYY-MM-DD)",
+                    value.text.trim()
+                ),
+            );
             None
         }
     }
@@ -370,16 +452,25 @@ pub struct ParsedTrees {
 }
 
 /// Reads a trees CSV. A bad header is a [`FileError`]; bad rows are collected, never fatal.
-pub fn read_trees_csv(input: impl Read, ctx: ValidationContext<'_>) -> Result<ParsedTrees, FileError> {
+pub fn read_trees_csv(
+    input: impl Read,
+    ctx: ValidationContext<'_>,
+) -> Result<ParsedTrees, FileError> {
     let mut reader = csv::ReaderBuilder::new().flexible(true).from_reader(input);
     let headers: Vec<String> = reader
         .headers()
-        .map_err(|e| FileError { line: 1, reason: e.to_string() })?
+        .map_err(|e| FileError {
+            line: 1,
+            reason: e.to_string(),
+        })?
         .iter()
         .map(str::to_string)
         .collect();
     let columns = map_headers(&headers)?;
-    let mut parsed = ParsedTrees { headers: headers.clone(), ..ParsedTrees::default() };
+    let mut parsed = ParsedTrees {
+        headers: headers.clone(),
+        ..ParsedTrees::default()
+    };
     for result in reader.records() {
         let record = match result {
             Ok(record) => record,
@@ -388,7 +479,11 @@ pub fn read_trees_csv(input: impl Read, ctx: ValidationContext<'_>) -> Result<Pa
                 parsed.bad.push(BadRow {
                     line,
                     raw: Vec::new(),
-                    errors: vec![RowError { line, field: "(row)".to_string(), reason: e.to_string() }],
+                    errors: vec![RowError {
+                        line,
+                        field: "(row)".to_string(),
+                        reason: e.to_string(),
+                    }],
                 });
                 continue;
             }
@@ -408,10 +503,17 @@ pub fn read_trees_csv(input: impl Read, ctx: ValidationContext<'_>) -> Result<Pa
             continue;
         }
         let get = |column: Column| {
-            columns.iter().find(|(c, _, _)| *c == column).and_then(|(_, index, factor)| {
-                let text = raw.get(*index)?;
-                (!text.trim().is_empty()).then(|| FieldValue { field: headers[*index].as_str(), text, to_si: *factor })
-            })
+            columns
+                .iter()
+                .find(|(c, _, _)| *c == column)
+                .and_then(|(_, index, factor)| {
+                    let text = raw.get(*index)?;
+                    (!text.trim().is_empty()).then(|| FieldValue {
+                        field: headers[*index].as_str(),
+                        text,
+                        to_si: *factor,
+                    })
+                })
         };
         match validate_tree_fields(get, ctx) {
             Ok(tree) => parsed.good.push((line, tree)),
@@ -419,7 +521,11 @@ pub fn read_trees_csv(input: impl Read, ctx: ValidationContext<'_>) -> Result<Pa
                 line,
                 errors: errors
                     .into_iter()
-                    .map(|(field, reason)| RowError { line, field, reason })
+                    .map(|(field, reason)| RowError {
+                        line,
+                        field,
+                        reason,
+                    })
                     .collect(),
                 raw,
             }),
@@ -447,19 +553,27 @@ fn map_headers(headers: &[String]) -> Result<Vec<(Column, usize, f64)>, FileErro
         if let Some((_, first, _)) = columns.iter().find(|(c, _, _)| *c == column) {
             return Err(FileError {
                 line: 1,
-                reason: format!("columns '{}' and '{}' give the same field twice", headers[*first].trim(), header.trim()),
+                reason: format!(
+                    "columns '{}' and '{}' give the same field twice",
+                    headers[*first].trim(),
+                    header.trim()
+                ),
             });
         }
         columns.push((column, index, factor));
     }
     let has = |column: Column| columns.iter().any(|(c, _, _)| *c == column);
     if !has(Column::Species) {
-        return Err(FileError { line: 1, reason: "the header has no 'species' column".to_string() });
+        return Err(FileError {
+            line: 1,
+            reason: "the header has no 'species' column".to_string(),
+        });
     }
     if !has(Column::Dbh) && !has(Column::Stems) {
         return Err(FileError {
             line: 1,
-            reason: "the header has neither 'dbh_cm' nor 'stems_cm' (or 'dbh_in' / 'stems_in')".to_string(),
+            reason: "the header has neither 'dbh_cm' nor 'stems_cm' (or 'dbh_in' / 'stems_in')"
+                .to_string(),
         });
     }
     Ok(columns)
@@ -473,7 +587,11 @@ pub fn export_header() -> Vec<&'static str> {
 /// The cells of one record in export order (text cells made spreadsheet-safe).
 pub fn export_cells(uid: &str, tree: &TreeRecord) -> Vec<String> {
     let num = |v: Option<f64>| v.map(|x| x.to_string()).unwrap_or_default();
-    let txt = |v: &Option<String>| v.as_deref().map(|t| csv_safe(t).into_owned()).unwrap_or_default();
+    let txt = |v: &Option<String>| {
+        v.as_deref()
+            .map(|t| csv_safe(t).into_owned())
+            .unwrap_or_default()
+    };
     let dbh = if tree.multi_stem {
         // Derived: rounded to 0.01 cm so exports stay readable; import accepts it within 0.05 cm.
         format!("{}", (tree.dbh_cm() * 100.0).round() / 100.0)
@@ -487,18 +605,28 @@ pub fn export_cells(uid: &str, tree: &TreeRecord) -> Vec<String> {
         num(tree.lat),
         txt(&tree.street),
         txt(&tree.house_number),
-        tree.site_kind.map(|s| s.as_str().to_string()).unwrap_or_default(),
+        tree.site_kind
+            .map(|s| s.as_str().to_string())
+            .unwrap_or_default(),
         tree.planted_on.map(|d| d.to_string()).unwrap_or_default(),
-        tree.status.map(|s| s.as_str().to_string()).unwrap_or_default(),
+        tree.status
+            .map(|s| s.as_str().to_string())
+            .unwrap_or_default(),
         tree.measured_on.to_string(),
         dbh,
-        if tree.multi_stem { format_stems(&tree.stems_cm) } else { String::new() },
+        if tree.multi_stem {
+            format_stems(&tree.stems_cm)
+        } else {
+            String::new()
+        },
         num(tree.height_m),
         num(tree.crown_base_m),
         num(tree.crown_width_m),
         num(tree.crown_width2_m),
         num(tree.dieback_pct),
-        tree.condition.map(|c| c.as_str().to_string()).unwrap_or_default(),
+        tree.condition
+            .map(|c| c.as_str().to_string())
+            .unwrap_or_default(),
         txt(&tree.notes),
     ]
 }
@@ -536,7 +664,11 @@ pub fn write_rejects(output: impl Write, headers: &[String], bad: &[BadRow]) -> 
     for row in bad {
         let mut cells: Vec<String> = row.raw.clone();
         cells.resize(headers.len(), String::new());
-        let reasons: Vec<String> = row.errors.iter().map(|e| format!("{}: {}", e.field, e.reason)).collect();
+        let reasons: Vec<String> = row
+            .errors
+            .iter()
+            .map(|e| format!("{}: {}", e.field, e.reason))
+            .collect();
         cells.push(csv_safe(&reasons.join("; ")).into_owned());
         writer.write_record(&cells)?;
     }

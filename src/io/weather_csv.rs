@@ -60,7 +60,10 @@ pub fn read_weather_csv(input: impl Read) -> Result<ParsedWeather, FileError> {
     let mut reader = csv::ReaderBuilder::new().flexible(true).from_reader(input);
     let headers: Vec<String> = reader
         .headers()
-        .map_err(|e| FileError { line: 1, reason: e.to_string() })?
+        .map_err(|e| FileError {
+            line: 1,
+            reason: e.to_string(),
+        })?
         .iter()
         .map(|h| h.trim().trim_start_matches('\u{feff}').to_ascii_lowercase())
         .collect();
@@ -68,18 +71,30 @@ pub fn read_weather_csv(input: impl Read) -> Result<ParsedWeather, FileError> {
         if !COLUMNS.contains(&header.as_str()) {
             return Err(FileError {
                 line: 1,
-                reason: format!("unknown column '{header}'; the weather format has: {}", COLUMNS.join(",")),
+                reason: format!(
+                    "unknown column '{header}'; the weather format has: {}",
+                    COLUMNS.join(",")
+                ),
             });
         }
     }
     if !headers.iter().any(|h| h == "date") {
-        return Err(FileError { line: 1, reason: "the header has no 'date' column".to_string() });
+        return Err(FileError {
+            line: 1,
+            reason: "the header has no 'date' column".to_string(),
+        });
     }
     let has = |name: &str| headers.iter().any(|h| h == name);
     if has("wind_m_s") != has("wind_height_m") {
-        return Err(FileError { line: 1, reason: "'wind_m_s' needs 'wind_height_m' (and the other way round)".to_string() });
+        return Err(FileError {
+            line: 1,
+            reason: "'wind_m_s' needs 'wind_height_m' (and the other way round)".to_string(),
+        });
     }
-    let mut parsed = ParsedWeather { headers: headers.clone(), ..ParsedWeather::default() };
+    let mut parsed = ParsedWeather {
+        headers: headers.clone(),
+        ..ParsedWeather::default()
+    };
     let mut seen = HashSet::new();
     for result in reader.records() {
         let record = match result {
@@ -89,7 +104,11 @@ pub fn read_weather_csv(input: impl Read) -> Result<ParsedWeather, FileError> {
                 parsed.bad.push(BadRow {
                     line,
                     raw: Vec::new(),
-                    errors: vec![RowError { line, field: "(row)".into(), reason: e.to_string() }],
+                    errors: vec![RowError {
+                        line,
+                        field: "(row)".into(),
+                        reason: e.to_string(),
+                    }],
                 });
                 continue;
             }
@@ -107,32 +126,52 @@ pub fn read_weather_csv(input: impl Read) -> Result<ParsedWeather, FileError> {
                 Ok(value) => {
                     let (low, high) = range(name);
                     if value < low || value > high {
-                        errors.push(RowError { line, field: name.into(), reason: format!("{value} is outside {low} to {high}") });
+                        errors.push(RowError {
+                            line,
+                            field: name.into(),
+                            reason: format!("{value} is outside {low} to {high}"),
+                        });
                         None
                     } else {
                         Some(value)
                     }
                 }
                 Err(reason) => {
-                    errors.push(RowError { line, field: name.into(), reason });
+                    errors.push(RowError {
+                        line,
+                        field: name.into(),
+                        reason,
+                    });
                     None
                 }
             }
         };
         let date = match cell("date") {
             None => {
-                errors.push(RowError { line, field: "date".into(), reason: "date is required".into() });
+                errors.push(RowError {
+                    line,
+                    field: "date".into(),
+                    reason: "date is required".into(),
+                });
                 None
             }
             Some(text) => match NaiveDate::parse_from_str(text, "%Y-%m-%d") {
                 Ok(date) => {
                     if !seen.insert(date) {
-                        errors.push(RowError { line, field: "date".into(), reason: format!("{date} appears twice") });
+                        errors.push(RowError {
+                            line,
+                            field: "date".into(),
+                            reason: format!("{date} appears twice"),
+                        });
                     }
                     Some(date)
                 }
                 Err(_) => {
-                    errors.push(RowError { line, field: "date".into(), reason: format!("'{text}' is not an ISO 8601 date (YYYY-MM-DD)") });
+                    errors.push(RowError {
+                        line,
+                        field: "date".into(),
+                        reason: format!("'{text}' is not an ISO 8601 date (YYYY-MM-DD)"),
+                    });
                     None
                 }
             },
@@ -150,10 +189,20 @@ pub fn read_weather_csv(input: impl Read) -> Result<ParsedWeather, FileError> {
         if let (Some(low), Some(high)) = (tmin_c, tmax_c)
             && low > high
         {
-            errors.push(RowError { line, field: "tmin_c".into(), reason: format!("{low} is above tmax_c {high}") });
+            errors.push(RowError {
+                line,
+                field: "tmin_c".into(),
+                reason: format!("{low} is above tmax_c {high}"),
+            });
         }
-        if wind_z.is_some() != wind_height.is_some() && cell("wind_m_s").is_some() != cell("wind_height_m").is_some() {
-            errors.push(RowError { line, field: "wind_height_m".into(), reason: "wind_m_s and wind_height_m go together".into() });
+        if wind_z.is_some() != wind_height.is_some()
+            && cell("wind_m_s").is_some() != cell("wind_height_m").is_some()
+        {
+            errors.push(RowError {
+                line,
+                field: "wind_height_m".into(),
+                reason: "wind_m_s and wind_height_m go together".into(),
+            });
         }
         let wind_2m_ms = wind_2m.or(match (wind_z, wind_height) {
             (Some(speed), Some(height)) => Some(wind_at_2m(speed, height)),
@@ -162,7 +211,17 @@ pub fn read_weather_csv(input: impl Read) -> Result<ParsedWeather, FileError> {
         match (date, errors.is_empty()) {
             (Some(date), true) => parsed.good.push((
                 line,
-                WeatherRecord { date, precip_mm, tmin_c, tmax_c, rh_mean_pct, wind_2m_ms, solar_mj_m2, tdew_c, sunshine_h },
+                WeatherRecord {
+                    date,
+                    precip_mm,
+                    tmin_c,
+                    tmax_c,
+                    rh_mean_pct,
+                    wind_2m_ms,
+                    solar_mj_m2,
+                    tdew_c,
+                    sunshine_h,
+                },
             )),
             _ => parsed.bad.push(BadRow { line, raw, errors }),
         }
@@ -186,11 +245,29 @@ mod tests {
         let text = "date,precip_mm,tmin_c,tmax_c\n2025-01-01,1.0,-3,2\n2025-01-02,abc,-3,2\n2025-13-01,0,1,2\n2025-01-01,0,5,2\n";
         let parsed = read_weather_csv(text.as_bytes()).ok().unwrap_or_default();
         assert_eq!(parsed.good.len(), 1);
-        let errors: Vec<String> = parsed.bad.iter().flat_map(|b| b.errors.iter().map(|e| e.to_string())).collect();
-        assert!(errors.contains(&"3: precip_mm: 'abc' is not a number".to_string()), "{errors:?}");
-        assert!(errors.iter().any(|e| e.starts_with("4: date:")), "{errors:?}");
-        assert!(errors.iter().any(|e| e.starts_with("5: date:") && e.contains("twice")), "{errors:?}");
-        assert!(errors.iter().any(|e| e.starts_with("5: tmin_c:")), "{errors:?}");
+        let errors: Vec<String> = parsed
+            .bad
+            .iter()
+            .flat_map(|b| b.errors.iter().map(|e| e.to_string()))
+            .collect();
+        assert!(
+            errors.contains(&"3: precip_mm: 'abc' is not a number".to_string()),
+            "{errors:?}"
+        );
+        assert!(
+            errors.iter().any(|e| e.starts_with("4: date:")),
+            "{errors:?}"
+        );
+        assert!(
+            errors
+                .iter()
+                .any(|e| e.starts_with("5: date:") && e.contains("twice")),
+            "{errors:?}"
+        );
+        assert!(
+            errors.iter().any(|e| e.starts_with("5: tmin_c:")),
+            "{errors:?}"
+        );
     }
 
     #[test]

@@ -17,17 +17,25 @@ pub struct ZoneShape {
 /// Reads zones; features that are not (Multi)Polygons or have no name are row errors, numbered by
 /// feature (1-based) in `line`.
 pub fn read_zones(text: &str) -> Result<(Vec<ZoneShape>, Vec<RowError>), FileError> {
-    let geojson: GeoJson = text
-        .parse()
-        .map_err(|e| FileError { line: 0, reason: format!("not valid GeoJSON: {e}") })?;
+    let geojson: GeoJson = text.parse().map_err(|e| FileError {
+        line: 0,
+        reason: format!("not valid GeoJSON: {e}"),
+    })?;
     let GeoJson::FeatureCollection(collection) = geojson else {
-        return Err(FileError { line: 0, reason: "expected a GeoJSON FeatureCollection".to_string() });
+        return Err(FileError {
+            line: 0,
+            reason: "expected a GeoJSON FeatureCollection".to_string(),
+        });
     };
     let mut zones = Vec::new();
     let mut errors = Vec::new();
     for (index, feature) in collection.features.into_iter().enumerate() {
         let number = index as u64 + 1;
-        let fail = |field: &str, reason: String| RowError { line: number, field: field.to_string(), reason };
+        let fail = |field: &str, reason: String| RowError {
+            line: number,
+            field: field.to_string(),
+            reason,
+        };
         let name = feature
             .properties
             .as_ref()
@@ -44,10 +52,18 @@ pub fn read_zones(text: &str) -> Result<(Vec<ZoneShape>, Vec<RowError>), FileErr
             continue;
         };
         let shape = match &geometry.value {
-            GeometryValue::Polygon { .. } => geo::Polygon::try_from(&geometry.value).map(|p| MultiPolygon::new(vec![p])),
+            GeometryValue::Polygon { .. } => {
+                geo::Polygon::try_from(&geometry.value).map(|p| MultiPolygon::new(vec![p]))
+            }
             GeometryValue::MultiPolygon { .. } => MultiPolygon::try_from(&geometry.value),
             other => {
-                errors.push(fail("geometry", format!("zone '{name}' is a {}, not a Polygon or MultiPolygon", other.type_name())));
+                errors.push(fail(
+                    "geometry",
+                    format!(
+                        "zone '{name}' is a {}, not a Polygon or MultiPolygon",
+                        other.type_name()
+                    ),
+                ));
                 continue;
             }
         };

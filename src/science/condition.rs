@@ -116,12 +116,29 @@ mod tests {
     // Check values: METHODS.md M3 (condition words and band edges).
     #[test]
     fn words_map_to_the_spec_dieback_and_back() {
-        assert_eq!(ConditionWord::parse(" Good ").map(ConditionWord::dieback_pct), Some(5.0));
-        assert_eq!(ConditionWord::parse("FAIR").map(ConditionWord::dieback_pct), Some(18.0));
-        assert_eq!(ConditionWord::parse("poor").map(ConditionWord::dieback_pct), Some(38.0));
-        assert_eq!(ConditionWord::parse("dead").map(ConditionWord::dieback_pct), Some(100.0));
+        assert_eq!(
+            ConditionWord::parse(" Good ").map(ConditionWord::dieback_pct),
+            Some(5.0)
+        );
+        assert_eq!(
+            ConditionWord::parse("FAIR").map(ConditionWord::dieback_pct),
+            Some(18.0)
+        );
+        assert_eq!(
+            ConditionWord::parse("poor").map(ConditionWord::dieback_pct),
+            Some(38.0)
+        );
+        assert_eq!(
+            ConditionWord::parse("dead").map(ConditionWord::dieback_pct),
+            Some(100.0)
+        );
         assert_eq!(ConditionWord::parse("excellent"), None);
-        for word in [ConditionWord::Good, ConditionWord::Fair, ConditionWord::Poor, ConditionWord::Dead] {
+        for word in [
+            ConditionWord::Good,
+            ConditionWord::Fair,
+            ConditionWord::Poor,
+            ConditionWord::Dead,
+        ] {
             assert_eq!(ConditionWord::from_dieback(word.dieback_pct()), word);
         }
     }

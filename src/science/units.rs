@@ -48,7 +48,11 @@ mod tests {
         assert_eq!(feet_to_m(1.0), 0.3048);
         assert_relative_eq!(inches_to_cm(12.0), 30.48, max_relative = 1e-15);
         // 12 in = 1 ft, both routes agree (NIST SP 811 B.8).
-        assert_relative_eq!(inches_to_cm(12.0) / 100.0, feet_to_m(1.0), max_relative = 1e-15);
+        assert_relative_eq!(
+            inches_to_cm(12.0) / 100.0,
+            feet_to_m(1.0),
+            max_relative = 1e-15
+        );
         assert_relative_eq!(cm_to_inches(inches_to_cm(17.3)), 17.3, max_relative = 1e-15);
         assert_relative_eq!(m_to_feet(feet_to_m(40.0)), 40.0, max_relative = 1e-15);
     }
@@ -56,7 +60,11 @@ mod tests {
     // Check: √(22² + 18² + 9²) = √889 = 29.8161… (hand arithmetic on METHODS.md M1's formula).
     #[test]
     fn equivalent_dbh_sums_basal_areas() {
-        assert_relative_eq!(equivalent_dbh_cm(&[22.0, 18.0, 9.0]), 889f64.sqrt(), max_relative = 1e-15);
+        assert_relative_eq!(
+            equivalent_dbh_cm(&[22.0, 18.0, 9.0]),
+            889f64.sqrt(),
+            max_relative = 1e-15
+        );
         assert_relative_eq!(equivalent_dbh_cm(&[31.5]), 31.5, max_relative = 1e-15);
         // 3-4-5 triangle: two stems of 30 and 40 cm equal one of 50 cm.
         assert_relative_eq!(equivalent_dbh_cm(&[30.0, 40.0]), 50.0, max_relative = 1e-15);

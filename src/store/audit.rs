@@ -40,9 +40,27 @@ pub fn install_triggers(conn: &Connection) -> Result<(), StoreError> {
         };
         let actor = "(SELECT actor FROM audit_context WHERE id = 1)";
         for (action, event, before, after, row) in [
-            ("insert", "INSERT", "NULL".to_string(), json_of("NEW"), "NEW.rowid"),
-            ("update", "UPDATE", json_of("OLD"), json_of("NEW"), "NEW.rowid"),
-            ("delete", "DELETE", json_of("OLD"), "NULL".to_string(), "OLD.rowid"),
+            (
+                "insert",
+                "INSERT",
+                "NULL".to_string(),
+                json_of("NEW"),
+                "NEW.rowid",
+            ),
+            (
+                "update",
+                "UPDATE",
+                json_of("OLD"),
+                json_of("NEW"),
+                "NEW.rowid",
+            ),
+            (
+                "delete",
+                "DELETE",
+                json_of("OLD"),
+                "NULL".to_string(),
+                "OLD.rowid",
+            ),
         ] {
             sql.push_str(&format!(
                 "DROP TRIGGER IF EXISTS audit_{table}_{action};\n\

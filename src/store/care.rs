@@ -7,6 +7,9 @@ use super::{Store, StoreError, timestamp};
 use crate::care::risk::{self, RiskRating};
 use crate::io::care_csv::{AssessmentRow, WorkOrderRow};
 
+/// Failure-mode rows of one tree on one date: one assessment.
+type AssessmentGroup<'a> = (&'a str, chrono::NaiveDate, Vec<&'a (u64, AssessmentRow)>);
+
 impl Store {
     /// Adds assessments, one failure mode per row; rows of the same tree and date form one
     /// assessment whose overall rating is the highest of its modes. All or nothing.
@@ -19,7 +22,7 @@ impl Store {
         let intervals = self.reinspection_intervals()?;
         self.write(actor, |tx| {
             let stamp = timestamp(now);
-            let mut groups: Vec<(&str, chrono::NaiveDate, Vec<&(u64, AssessmentRow)>)> = Vec::new();
+            let mut groups: Vec<AssessmentGroup<'_>> = Vec::new();
             for row in rows {
                 match groups
                     .iter_mut()
@@ -128,7 +131,9 @@ impl Store {
 
     /// Number of assessments and of open (open or scheduled) work orders.
     pub fn care_counts(&self) -> Result<(i64, i64), StoreError> {
-        let assessments = self.conn.query_row("SELECT count(*) FROM assessments", [], |r| r.get(0))?;
+        let assessments = self
+            .conn
+            .query_row("SELECT count(*) FROM assessments", [], |r| r.get(0))?;
         let open = self.conn.query_row(
             "SELECT count(*) FROM work_orders WHERE status IN ('open', 'scheduled')",
             [],
@@ -144,7 +149,9 @@ impl Store {
             let key = crate::settings::reinspect_key(*rating);
             let months = match self.setting(key)? {
                 Some(text) => text.trim().parse::<u32>().map_err(|_| {
-                    StoreError::Invalid(format!("setting {key} = '{text}' is not a whole number of months"))
+                    StoreError::Invalid(format!(
+                        "setting {key} = '{text}' is not a whole number of months"
+                    ))
                 })?,
                 None => risk::default_reinspection_months(*rating),
             };

@@ -41,15 +41,19 @@ pub fn migrate(conn: &mut Connection) -> Result<usize, StoreError> {
     let found = current_version(conn)?;
     let latest = latest_version();
     if found > latest {
-        return Err(StoreError::NewerSchema { found, supported: latest });
+        return Err(StoreError::NewerSchema {
+            found,
+            supported: latest,
+        });
     }
     let pending: Vec<_> = migrations().into_iter().skip(found as usize).collect();
     for (offset, (name, sql)) in pending.iter().enumerate() {
         let tx = conn.transaction()?;
-        tx.execute_batch(sql).map_err(|source| StoreError::Migration {
-            name: (*name).to_string(),
-            source,
-        })?;
+        tx.execute_batch(sql)
+            .map_err(|source| StoreError::Migration {
+                name: (*name).to_string(),
+                source,
+            })?;
         tx.pragma_update(None, "user_version", found + offset as i64 + 1)?;
         tx.commit()?;
     }
@@ -64,7 +68,10 @@ mod tests {
     fn migration_files_are_numbered_contiguously_from_one() {
         for (index, (name, _)) in migrations().iter().enumerate() {
             let expected = format!("{:04}_", index + 1);
-            assert!(name.starts_with(&expected), "{name} should start with {expected}");
+            assert!(
+                name.starts_with(&expected),
+                "{name} should start with {expected}"
+            );
         }
         assert!(latest_version() >= 1);
     }

@@ -29,7 +29,9 @@ pub enum StoreError {
     NewerSchema { found: i64, supported: i64 },
     #[error("{path} is not a Streetwood inventory ({reason})")]
     NotAnInventory { path: String, reason: String },
-    #[error("{path} does not exist; create it with `streetwood init {path}` or `streetwood demo --out {path}`")]
+    #[error(
+        "{path} does not exist; create it with `streetwood init {path}` or `streetwood demo --out {path}`"
+    )]
     Missing { path: String },
     #[error("migration {name} failed: {source}")]
     Migration {
@@ -78,7 +80,9 @@ impl Store {
                 path: path.display().to_string(),
             });
         }
-        let flags = OpenFlags::SQLITE_OPEN_READ_WRITE | OpenFlags::SQLITE_OPEN_NO_MUTEX | OpenFlags::SQLITE_OPEN_URI;
+        let flags = OpenFlags::SQLITE_OPEN_READ_WRITE
+            | OpenFlags::SQLITE_OPEN_NO_MUTEX
+            | OpenFlags::SQLITE_OPEN_URI;
         let conn = Connection::open_with_flags(path, flags)?;
         Self::setup(conn, Some(path.to_path_buf()))
     }
@@ -176,7 +180,11 @@ impl Store {
             )));
         }
         self.conn
-            .backup(rusqlite::MAIN_DB, target, None::<fn(rusqlite::backup::Progress)>)
+            .backup(
+                rusqlite::MAIN_DB,
+                target,
+                None::<fn(rusqlite::backup::Progress)>,
+            )
             .map_err(StoreError::from)
     }
 

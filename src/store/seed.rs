@@ -64,7 +64,8 @@ pub(super) fn seed_species(tx: &Transaction<'_>) -> Result<(), StoreError> {
 }
 
 pub(super) fn seed_settings(tx: &Transaction<'_>) -> Result<(), StoreError> {
-    let mut insert = tx.prepare_cached("INSERT OR IGNORE INTO settings (key, value) VALUES (?1, ?2)")?;
+    let mut insert =
+        tx.prepare_cached("INSERT OR IGNORE INTO settings (key, value) VALUES (?1, ?2)")?;
     for (key, value) in crate::settings::default_pairs() {
         insert.execute(params![key, value])?;
     }

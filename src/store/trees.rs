@@ -140,7 +140,9 @@ impl Store {
     pub fn tree_id_by_uid(&self, uid: &str) -> Result<Option<i64>, StoreError> {
         Ok(self
             .conn
-            .query_row("SELECT id FROM trees WHERE uid = ?1", [uid], |row| row.get(0))
+            .query_row("SELECT id FROM trees WHERE uid = ?1", [uid], |row| {
+                row.get(0)
+            })
             .optional()?)
     }
 
@@ -212,7 +214,12 @@ fn import_rows(
         };
         let species_id = *species_ids
             .get(&record.species.to_lowercase())
-            .ok_or_else(|| fail(format!("species: '{}' is not in the species list", record.species)))?;
+            .ok_or_else(|| {
+                fail(format!(
+                    "species: '{}' is not in the species list",
+                    record.species
+                ))
+            })?;
         let existing: Option<i64> = match &record.uid {
             Some(uid) => find_tree.query_row([uid], |r| r.get(0)).optional()?,
             None => None,
@@ -305,7 +312,9 @@ fn constraint_message(error: rusqlite::Error) -> String {
 fn species_ids_by_name(tx: &Transaction<'_>) -> Result<HashMap<String, i64>, StoreError> {
     let mut stmt = tx.prepare("SELECT id, scientific_name FROM species")?;
     let map = stmt
-        .query_map([], |row| Ok((row.get::<_, String>(1)?.to_lowercase(), row.get(0)?)))?
+        .query_map([], |row| {
+            Ok((row.get::<_, String>(1)?.to_lowercase(), row.get(0)?))
+        })?
         .collect::<Result<HashMap<_, _>, _>>()?;
     Ok(map)
 }
@@ -316,7 +325,13 @@ fn parse_word<T>(
     parse: impl Fn(&str) -> Result<T, crate::model::BadWord>,
 ) -> rusqlite::Result<Option<T>> {
     text.map(|t| {
-        parse(&t).map_err(|e| rusqlite::Error::FromSqlConversionFailure(index, rusqlite::types::Type::Text, Box::new(e)))
+        parse(&t).map_err(|e| {
+            rusqlite::Error::FromSqlConversionFailure(
+                index,
+                rusqlite::types::Type::Text,
+                Box::new(e),
+            )
+        })
     })
     .transpose()
 }
@@ -324,7 +339,11 @@ fn parse_word<T>(
 fn parse_date(index: usize, text: Option<String>) -> rusqlite::Result<Option<NaiveDate>> {
     text.map(|t| {
         t.parse::<NaiveDate>().map_err(|e| {
-            rusqlite::Error::FromSqlConversionFailure(index, rusqlite::types::Type::Text, Box::new(e))
+            rusqlite::Error::FromSqlConversionFailure(
+                index,
+                rusqlite::types::Type::Text,
+                Box::new(e),
+            )
         })
     })
     .transpose()
@@ -369,8 +388,9 @@ fn stored_record_from_row(row: &Row<'_>) -> Result<StoredTreeRecord, StoreError>
     let dbh_cm: f64 = row.get(12)?;
     let (stems_cm, multi_stem) = match stems_text {
         Some(text) => (
-            crate::io::parse_stems(&text)
-                .map_err(|reason| StoreError::Invalid(format!("stored stems '{text}': {reason}")))?,
+            crate::io::parse_stems(&text).map_err(|reason| {
+                StoreError::Invalid(format!("stored stems '{text}': {reason}"))
+            })?,
             true,
         ),
         None => (vec![dbh_cm], false),

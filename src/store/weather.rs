@@ -31,8 +31,11 @@ impl Store {
                      OR elevation_m IS NOT excluded.elevation_m OR coastal IS NOT excluded.coastal",
                 params![station.name, station.lat, station.lon, station.elevation_m, station.coastal],
             )?;
-            let station_id: i64 =
-                tx.query_row("SELECT id FROM weather_stations WHERE name = ?1", [&station.name], |r| r.get(0))?;
+            let station_id: i64 = tx.query_row(
+                "SELECT id FROM weather_stations WHERE name = ?1",
+                [&station.name],
+                |r| r.get(0),
+            )?;
             let mut upsert = tx.prepare_cached(
                 "INSERT INTO weather_days (station_id, date, precip_mm, tmin_c, tmax_c, rh_mean_pct, wind_2m_ms,
                                            solar_mj_m2, tdew_c, sunshine_h)
@@ -56,18 +59,27 @@ impl Store {
                         day.tdew_c,
                         day.sunshine_h,
                     ])
-                    .map_err(|e| StoreError::Row { line: *line, message: e.to_string() })?;
+                    .map_err(|e| StoreError::Row {
+                        line: *line,
+                        message: e.to_string(),
+                    })?;
             }
-            Ok(WeatherOutcome { days_written: days.len() })
+            Ok(WeatherOutcome {
+                days_written: days.len(),
+            })
         };
-        if dry_run { self.dry_run(actor, work) } else { self.write(actor, work) }
+        if dry_run {
+            self.dry_run(actor, work)
+        } else {
+            self.write(actor, work)
+        }
     }
 
     /// The stations held.
     pub fn stations(&self) -> Result<Vec<StationInfo>, StoreError> {
-        let mut stmt = self
-            .conn
-            .prepare("SELECT name, lat, lon, elevation_m, coastal FROM weather_stations ORDER BY name")?;
+        let mut stmt = self.conn.prepare(
+            "SELECT name, lat, lon, elevation_m, coastal FROM weather_stations ORDER BY name",
+        )?;
         let rows = stmt
             .query_map([], |r| {
                 Ok(StationInfo {
@@ -91,23 +103,34 @@ impl Store {
              WHERE s.name = ?1 AND d.date >= ?2 AND d.date <= ?3 ORDER BY d.date",
         )?;
         let rows = stmt
-            .query_map(params![station, format!("{year:04}-01-01"), format!("{year:04}-12-31")], |r| {
-                let text: String = r.get(0)?;
-                let date = text.parse::<NaiveDate>().map_err(|e| {
-                    rusqlite::Error::FromSqlConversionFailure(0, rusqlite::types::Type::Text, Box::new(e))
-                })?;
-                Ok(WeatherRecord {
-                    date,
-                    precip_mm: r.get(1)?,
-                    tmin_c: r.get(2)?,
-                    tmax_c: r.get(3)?,
-                    rh_mean_pct: r.get(4)?,
-                    wind_2m_ms: r.get(5)?,
-                    solar_mj_m2: r.get(6)?,
-                    tdew_c: r.get(7)?,
-                    sunshine_h: r.get(8)?,
-                })
-            })?
+            .query_map(
+                params![
+                    station,
+                    format!("{year:04}-01-01"),
+                    format!("{year:04}-12-31")
+                ],
+                |r| {
+                    let text: String = r.get(0)?;
+                    let date = text.parse::<NaiveDate>().map_err(|e| {
+                        rusqlite::Error::FromSqlConversionFailure(
+                            0,
+                            rusqlite::types::Type::Text,
+                            Box::new(e),
+                        )
+                    })?;
+                    Ok(WeatherRecord {
+                        date,
+                        precip_mm: r.get(1)?,
+                        tmin_c: r.get(2)?,
+                        tmax_c: r.get(3)?,
+                        rh_mean_pct: r.get(4)?,
+                        wind_2m_ms: r.get(5)?,
+                        solar_mj_m2: r.get(6)?,
+                        tdew_c: r.get(7)?,
+                        sunshine_h: r.get(8)?,
+                    })
+                },
+            )?
             .collect::<Result<Vec<_>, _>>()?;
         Ok(rows)
     }
@@ -130,7 +153,11 @@ impl Store {
         let wanted = self.setting("default_station")?.unwrap_or_default();
         let stations = self.stations()?;
         if wanted.trim().is_empty() {
-            return Ok(if stations.len() == 1 { stations.into_iter().next() } else { None });
+            return Ok(if stations.len() == 1 {
+                stations.into_iter().next()
+            } else {
+                None
+            });
         }
         Ok(stations.into_iter().find(|s| s.name == wanted))
     }
@@ -139,7 +166,11 @@ impl Store {
     pub fn station_id(&self, name: &str) -> Result<Option<i64>, StoreError> {
         Ok(self
             .conn
-            .query_row("SELECT id FROM weather_stations WHERE name = ?1", [name], |r| r.get(0))
+            .query_row(
+                "SELECT id FROM weather_stations WHERE name = ?1",
+                [name],
+                |r| r.get(0),
+            )
             .optional()?)
     }
 }

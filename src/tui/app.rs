@@ -90,7 +90,8 @@ impl App {
     /// Tells the views how many terminal rows there are (before `refresh`).
     pub fn set_viewport(&mut self, terminal_height: u16) {
         // Title (1) + table border and header (3) + status (1) + footer (1).
-        self.roster.set_height(terminal_height.saturating_sub(6) as usize);
+        self.roster
+            .set_height(terminal_height.saturating_sub(6) as usize);
     }
 
     /// Fetches the rows the visible view shows (only those: virtual scrolling).
@@ -109,7 +110,10 @@ impl App {
         .areas(frame.area());
         frame.render_widget(
             Paragraph::new(Line::from(vec![
-                Span::styled(" Streetwood ", Style::new().add_modifier(Modifier::BOLD | Modifier::REVERSED)),
+                Span::styled(
+                    " Streetwood ",
+                    Style::new().add_modifier(Modifier::BOLD | Modifier::REVERSED),
+                ),
                 Span::raw(" Roster · "),
                 Span::raw(self.file_label.as_str()),
             ])),
@@ -121,7 +125,10 @@ impl App {
             .iter()
             .flat_map(|(key, what)| {
                 [
-                    Span::styled(format!(" {key} "), Style::new().add_modifier(Modifier::REVERSED)),
+                    Span::styled(
+                        format!(" {key} "),
+                        Style::new().add_modifier(Modifier::REVERSED),
+                    ),
                     Span::raw(format!(" {what} ")),
                 ]
             })

@@ -24,7 +24,11 @@ pub fn run(store: &Store, settings: app::AppSettings) -> anyhow::Result<()> {
     result
 }
 
-fn event_loop(terminal: &mut ratatui::DefaultTerminal, app: &mut App, query: &Query<'_>) -> anyhow::Result<()> {
+fn event_loop(
+    terminal: &mut ratatui::DefaultTerminal,
+    app: &mut App,
+    query: &Query<'_>,
+) -> anyhow::Result<()> {
     loop {
         let size = terminal.size()?;
         app.set_viewport(size.height);

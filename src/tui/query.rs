@@ -20,7 +20,11 @@ impl<'a> Query<'a> {
     }
 
     /// The roster rows from `first_id` on (ids ascending), at most `limit`.
-    pub fn roster_rows_from(&self, first_id: i64, limit: usize) -> Result<Vec<TreeSummary>, StoreError> {
+    pub fn roster_rows_from(
+        &self,
+        first_id: i64,
+        limit: usize,
+    ) -> Result<Vec<TreeSummary>, StoreError> {
         self.store.roster_page(first_id - 1, limit)
     }
 

@@ -39,7 +39,11 @@ pub struct State {
 impl State {
     /// A roster over these tree ids (in display order).
     pub fn new(ids: Vec<i64>) -> Self {
-        State { ids, height: 20, ..State::default() }
+        State {
+            ids,
+            height: 20,
+            ..State::default()
+        }
     }
 
     /// Number of trees in the roster.
@@ -129,11 +133,33 @@ pub fn status_line(state: &State) -> Line<'static> {
 
 /// Draws the table.
 pub fn render(state: &State, settings: AppSettings, frame: &mut Frame<'_>, area: Rect) {
-    let dbh_header = if settings.us_units { "DBH in" } else { "DBH cm" };
-    let header = Row::new(["", "id", "uid", "species", "common name", "street", "no.", dbh_header, "condition", "status", "zone"])
-        .style(Style::new().add_modifier(Modifier::BOLD | Modifier::UNDERLINED));
+    let dbh_header = if settings.us_units {
+        "DBH in"
+    } else {
+        "DBH cm"
+    };
+    let header = Row::new([
+        "",
+        "id",
+        "uid",
+        "species",
+        "common name",
+        "street",
+        "no.",
+        dbh_header,
+        "condition",
+        "status",
+        "zone",
+    ])
+    .style(Style::new().add_modifier(Modifier::BOLD | Modifier::UNDERLINED));
     let rows = state.rows.iter().enumerate().map(|(i, tree)| {
-        let dbh = tree.dbh_cm.map(|d| if settings.us_units { cm_to_inches(d) } else { d });
+        let dbh = tree.dbh_cm.map(|d| {
+            if settings.us_units {
+                cm_to_inches(d)
+            } else {
+                d
+            }
+        });
         let band = tree
             .effective_dieback_pct()
             .map(|p| ConditionBand::from_dieback(p).as_str())
