@@ -49,6 +49,13 @@ word_enum!(
     /// Where a tree stands (DESIGN.md data model).
     SiteKind { Verge => "verge", Pit => "pit", Median => "median", Park => "park", Yard => "yard" }
 );
+impl Default for SiteKind {
+    /// METHODS.md M13 step 2: a missing site kind counts as verge.
+    fn default() -> Self {
+        SiteKind::Verge
+    }
+}
+
 word_enum!(
     /// Whether a tree stands, was removed (never deleted) or is planned.
     TreeStatus { Standing => "standing", Removed => "removed", Planned => "planned" }

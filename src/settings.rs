@@ -20,7 +20,7 @@ pub fn default_pairs() -> Vec<(&'static str, String)> {
 }
 
 fn science_pairs() -> Vec<(&'static str, String)> {
-    Vec::new()
+    crate::science::settings::ScienceSettings::default_pairs()
 }
 
 /// The settings key holding the re-inspection interval (months) of a risk rating.
@@ -31,5 +31,30 @@ pub fn reinspect_key(rating: crate::care::risk::RiskRating) -> &'static str {
         RiskRating::Moderate => "reinspect_months_moderate",
         RiskRating::High => "reinspect_months_high",
         RiskRating::Extreme => "reinspect_months_extreme",
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn keys_are_unique_and_the_science_defaults_read_back() {
+        let pairs = default_pairs();
+        let mut keys: Vec<&str> = pairs.iter().map(|(k, _)| *k).collect();
+        keys.sort_unstable();
+        let before = keys.len();
+        keys.dedup();
+        assert_eq!(before, keys.len(), "duplicate settings keys");
+        let science = crate::science::settings::ScienceSettings::from_pairs(
+            pairs
+                .iter()
+                .filter(|(k, _)| crate::science::settings::KEYS.contains(k))
+                .cloned(),
+        );
+        assert_eq!(
+            science.ok(),
+            Some(crate::science::settings::ScienceSettings::default())
+        );
     }
 }
