@@ -161,18 +161,7 @@ pub struct StationInfo {
 }
 
 /// One day of weather as stored (every value may be missing; METHODS.md M6 fills gaps).
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-pub struct WeatherRecord {
-    pub date: NaiveDate,
-    pub precip_mm: Option<f64>,
-    pub tmin_c: Option<f64>,
-    pub tmax_c: Option<f64>,
-    pub rh_mean_pct: Option<f64>,
-    pub wind_2m_ms: Option<f64>,
-    pub solar_mj_m2: Option<f64>,
-    pub tdew_c: Option<f64>,
-    pub sunshine_h: Option<f64>,
-}
+pub use crate::science::weather::WeatherDay as WeatherRecord;
 
 /// A named zone polygon (GeoJSON geometry text, validated on the way in).
 #[derive(Debug, Clone, PartialEq)]

@@ -189,14 +189,14 @@ pub fn render(state: &State, settings: AppSettings, frame: &mut Frame<'_>, area:
         Constraint::Length(1),
         Constraint::Length(7),
         Constraint::Length(8),
-        Constraint::Length(24),
-        Constraint::Length(20),
-        Constraint::Min(14),
+        Constraint::Fill(3),
+        Constraint::Fill(2),
+        Constraint::Fill(2),
         Constraint::Length(5),
         Constraint::Length(7),
         Constraint::Length(10),
         Constraint::Length(8),
-        Constraint::Length(16),
+        Constraint::Length(15),
     ];
     frame.render_widget(
         Table::new(rows, widths)
