@@ -23,6 +23,36 @@ fn science_pairs() -> Vec<(&'static str, String)> {
     crate::science::settings::ScienceSettings::default_pairs()
 }
 
+/// Checks a value before it is stored: science settings as the engine reads them, re-inspection
+/// intervals as whole months, units as metric or us.
+pub fn validate(key: &str, value: &str) -> Result<(), String> {
+    if !default_pairs().iter().any(|(k, _)| *k == key) {
+        let known: Vec<&str> = default_pairs().iter().map(|(k, _)| *k).collect();
+        return Err(format!(
+            "unknown setting '{key}'; known: {}",
+            known.join(", ")
+        ));
+    }
+    if crate::science::settings::KEYS.contains(&key) {
+        let mut science = crate::science::settings::ScienceSettings::default();
+        return science
+            .apply(key, value)
+            .map(|_| ())
+            .map_err(|e| format!("{key} = '{value}': {}", e.reason));
+    }
+    if key.starts_with("reinspect_months_") {
+        return value
+            .trim()
+            .parse::<u32>()
+            .map(|_| ())
+            .map_err(|_| format!("{key} = '{value}': must be a whole number of months"));
+    }
+    if key == "units" && !matches!(value, "metric" | "us") {
+        return Err(format!("units = '{value}': must be metric or us"));
+    }
+    Ok(())
+}
+
 /// The settings key holding the re-inspection interval (months) of a risk rating.
 pub fn reinspect_key(rating: crate::care::risk::RiskRating) -> &'static str {
     use crate::care::risk::RiskRating;

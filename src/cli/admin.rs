@@ -7,6 +7,20 @@ use clap::ValueEnum;
 use super::{CliError, open_store, same_file};
 use crate::store::Store;
 
+/// `streetwood settings …`.
+#[derive(Debug, clap::Subcommand)]
+pub enum SettingsCommand {
+    /// List every setting with its value.
+    List,
+    /// Change one setting (checked before it is stored).
+    Set {
+        /// The key, e.g. `co2_price_points` or `default_station`.
+        key: String,
+        /// The new value.
+        value: String,
+    },
+}
+
 /// Output format of list commands.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
 pub enum ListFormat {
@@ -120,4 +134,26 @@ pub fn species(inventory: &Path, format: ListFormat) -> Result<(), CliError> {
         }
         Ok(())
     })
+}
+
+/// `streetwood settings list|set`.
+pub fn settings(inventory: &Path, command: &SettingsCommand) -> Result<(), CliError> {
+    let mut store = open_store(inventory)?;
+    match command {
+        SettingsCommand::List => {
+            let pairs = store.settings()?;
+            super::with_output(None, inventory, |out| {
+                for (key, value) in &pairs {
+                    writeln!(out, "{key} = {value}")?;
+                }
+                Ok(())
+            })
+        }
+        SettingsCommand::Set { key, value } => {
+            crate::settings::validate(key, value).map_err(CliError::Input)?;
+            store.set_setting(key, value, "settings")?;
+            eprintln!("{key} = {value}");
+            Ok(())
+        }
+    }
 }

@@ -3,6 +3,7 @@
 //! names file, line, field and reason), 1 on any other failure.
 
 pub mod admin;
+pub mod benefits;
 pub mod demo;
 pub mod export;
 pub mod import;
@@ -65,6 +66,44 @@ pub enum Command {
         #[arg(long)]
         force: bool,
     },
+    /// Every standing tree's benefits for a year (DESIGN.md columns plus `estimated`).
+    Benefits {
+        /// The year (default: the latest year with weather at the default station).
+        #[arg(long)]
+        year: Option<i32>,
+        /// Output format.
+        #[arg(long, value_enum, default_value = "csv")]
+        format: benefits::BenefitsFormat,
+        /// Output file (default: standard output).
+        #[arg(long, value_name = "FILE")]
+        out: Option<PathBuf>,
+    },
+    /// Benefit totals for a year, by species, street, zone, condition band or overall.
+    Summary {
+        /// The year (default: the latest year with weather at the default station).
+        #[arg(long)]
+        year: Option<i32>,
+        /// How to group the trees.
+        #[arg(long, value_enum, default_value = "species")]
+        by: benefits::SummaryBy,
+        /// Output format.
+        #[arg(long, value_enum, default_value = "md")]
+        format: benefits::SummaryFormat,
+        /// Output file (default: standard output).
+        #[arg(long, value_name = "FILE")]
+        out: Option<PathBuf>,
+    },
+    /// The whole chain behind one tree's numbers, with the source of each step.
+    Explain {
+        /// The tree: its id, uid, or a unique uid prefix (6+ characters).
+        tree: String,
+        /// The year (default: the latest year with weather).
+        #[arg(long)]
+        year: Option<i32>,
+    },
+    /// Show or change settings (prices, methods, re-inspection intervals, units).
+    #[command(subcommand)]
+    Settings(admin::SettingsCommand),
     /// List the species list (botanical and common names, groups, growth rates).
     Species {
         /// Output format.
@@ -128,6 +167,17 @@ pub fn run(
         Command::Export(what) => export::run(&inventory_path(cli)?, what),
         Command::Backup { file, force } => admin::backup(&inventory_path(cli)?, file, *force),
         Command::Species { format } => admin::species(&inventory_path(cli)?, *format),
+        Command::Benefits { year, format, out } => {
+            benefits::benefits(&inventory_path(cli)?, *year, *format, out.as_ref())
+        }
+        Command::Summary {
+            year,
+            by,
+            format,
+            out,
+        } => benefits::summary(&inventory_path(cli)?, *year, *by, *format, out.as_ref()),
+        Command::Explain { tree, year } => benefits::explain(&inventory_path(cli)?, tree, *year),
+        Command::Settings(command) => admin::settings(&inventory_path(cli)?, command),
     }
 }
 

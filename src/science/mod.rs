@@ -16,6 +16,7 @@ pub mod dimensions;
 pub mod et0;
 pub mod growth;
 pub mod interception;
+pub mod inventory;
 pub mod kinds;
 pub mod leaf_area;
 pub mod money;

@@ -17,7 +17,7 @@ use super::growth::{
     DbhAt, Growth, GrowthSource, ObservedGrowth, annual_growth, model_growth_cm_per_yr,
     observed_growth,
 };
-use super::interception::{annual_interception_mm, depth_to_m3};
+use super::interception::{GashCanopy, annual_interception_mm, depth_to_m3};
 use super::kinds::{LeafHabit, SiteKind, TreeStatus, WaterUse};
 use super::leaf_area::{effective_lai, leaf_area_m2};
 use super::money::{FlowValue, Prices, flow_value};
@@ -178,6 +178,12 @@ pub struct TreeYearDetail {
     /// Frost-free days used to scale growth, when the setting is on.
     pub frost_free_days: Option<u32>,
     pub lai_effective: f64,
+    /// The leaf-on canopy of the Gash model (M5): cover c, storage S, and the rain P′g that fills it.
+    pub canopy: GashCanopy,
+    pub saturating_rain_mm: f64,
+    /// Leaf-on days of the year (all days for evergreens) and the rain days counted.
+    pub leaf_on_days: u32,
+    pub rain_days: u32,
     pub interception_mm: f64,
     pub et0_sum_mm: f64,
     pub ks: f64,
@@ -222,6 +228,7 @@ const SRC_GROWTH_MODEL: &str = "species rate (Mailloux et al. 2024; Smith, Dearb
 const SRC_SEQ: &str = "C(d + dd) - C(d) (method of Nowak et al. 2013) [from memory]";
 const SRC_LA: &str = "LA = CPA x LAI x (1 - dieback); LAI 4 broadleaf (Lindsey & Bassuk 1991) [published], 5 conifer [assumed]";
 const SRC_GASH: &str = "revised Gash model (Gash, Lloyd & Lachaud 1995, J. Hydrol. 170:79-86), c = 1 - exp(-0.5 LAI), S = 0.2 mm x LAI [published method; equations from memory]";
+const SRC_SEASON: &str = "leaf-on strictly between the last spring and first autumn frost (Tmin < 0 C) [common practice] (METHODS.md M5)";
 const SRC_ET0: &str = "FAO-56 Penman-Monteith (Allen et al. 1998) [published]; leaf-on = frost-free period [common practice]";
 const SRC_KL: &str = "KL = ks x kd x kmc (Costello et al. 2000, WUCOLS) [published method]";
 const SRC_TRANSP: &str = "sum ET0 x KL x CPA x (1 - dieback) (METHODS.md M7)";
@@ -323,6 +330,11 @@ pub fn tree_year(tree: &TreeInput<'_>, ctx: &YearContext<'_>) -> Result<TreeBene
     let interception_mm =
         annual_interception_mm(&ctx.weather.rain_days, lai, species.leaf_habit, settings);
     let interception_m3 = depth_to_m3(interception_mm, cpa);
+    let canopy = GashCanopy::leaf_on(lai, settings);
+    let leaf_on_days = match species.leaf_habit {
+        LeafHabit::Evergreen => ctx.weather.days.len() as u32,
+        LeafHabit::Deciduous => ctx.weather.frost_free_days,
+    };
 
     // 9. Transpiration and cooling.
     let ks = species_factor(species.water_use);
@@ -378,6 +390,10 @@ pub fn tree_year(tree: &TreeInput<'_>, ctx: &YearContext<'_>) -> Result<TreeBene
             growth,
             frost_free_days,
             lai_effective: lai,
+            canopy,
+            saturating_rain_mm: canopy.saturating_rain_mm(),
+            leaf_on_days,
+            rain_days: ctx.weather.rain_days.len() as u32,
             interception_mm,
             et0_sum_mm: et0_sum,
             ks,
@@ -529,6 +545,36 @@ impl TreeBenefits {
             x.lai_effective,
             "m2/m2",
             SRC_LA,
+        );
+        push(
+            "Leaf-on days (frost-free season; evergreens all year)".to_string(),
+            f64::from(x.leaf_on_days),
+            "days",
+            SRC_SEASON,
+        );
+        push(
+            "Rain days (one storm each)".to_string(),
+            f64::from(x.rain_days),
+            "days",
+            SRC_GASH,
+        );
+        push(
+            "Canopy cover c = 1 - exp(-0.5 LAI)".to_string(),
+            x.canopy.cover,
+            "",
+            SRC_GASH,
+        );
+        push(
+            "Canopy storage S = s_leaf x LAI".to_string(),
+            x.canopy.storage_mm,
+            "mm",
+            SRC_GASH,
+        );
+        push(
+            "Rain that saturates the canopy P'g".to_string(),
+            x.saturating_rain_mm,
+            "mm",
+            SRC_GASH,
         );
         push(
             "Rain intercepted per m2 of crown".to_string(),

@@ -4,6 +4,7 @@
 //! into `audit_log` by triggers (see [`audit`]).
 
 pub mod audit;
+pub mod benefits;
 pub mod care;
 pub mod migrate;
 mod seed;

@@ -1,0 +1,541 @@
+//! `streetwood benefits`, `summary` and `explain`: the benefit engine over the inventory for one year.
+
+use std::io::Write;
+use std::path::{Path, PathBuf};
+
+use clap::ValueEnum;
+use serde_json::json;
+
+use super::{CliError, csv_error, open_store, with_output};
+use crate::io::csv_safe;
+use crate::model::StationInfo;
+use crate::science::inventory::{
+    BenefitRow, GroupBy, SummaryRow, compute_year, species_params, summarize,
+};
+use crate::science::money::Prices;
+use crate::science::settings::{KEYS, ScienceSettings};
+use crate::science::tree_year::SpeciesParams;
+use crate::science::weather::{Station, YearWeather};
+use crate::store::Store;
+
+/// The `benefits` columns of DESIGN.md, in order, plus `estimated`.
+pub const BENEFIT_COLUMNS: [&str; 16] = [
+    "tree_id",
+    "uid",
+    "species",
+    "dbh_cm",
+    "height_m",
+    "crown_width_m",
+    "leaf_area_m2",
+    "biomass_kg",
+    "carbon_kg",
+    "co2e_kg",
+    "co2e_seq_kg_yr",
+    "interception_m3_yr",
+    "transpiration_m3_yr",
+    "cooling_kwh_yr",
+    "value",
+    "estimated",
+];
+
+/// Output formats of `benefits`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum BenefitsFormat {
+    Csv,
+    Json,
+}
+
+/// Output formats of `summary`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum SummaryFormat {
+    Csv,
+    Json,
+    Md,
+}
+
+/// Grouping of `summary`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum SummaryBy {
+    Species,
+    Street,
+    Zone,
+    Condition,
+    None,
+}
+
+impl From<SummaryBy> for GroupBy {
+    fn from(by: SummaryBy) -> Self {
+        match by {
+            SummaryBy::Species => GroupBy::Species,
+            SummaryBy::Street => GroupBy::Street,
+            SummaryBy::Zone => GroupBy::Zone,
+            SummaryBy::Condition => GroupBy::Condition,
+            SummaryBy::None => GroupBy::None,
+        }
+    }
+}
+
+/// Everything one year's computation needs, loaded from the store.
+pub struct YearRun {
+    pub year: i32,
+    pub station: StationInfo,
+    pub settings: ScienceSettings,
+    pub prices: Prices,
+    pub weather: YearWeather,
+    pub days_held: i64,
+    pub rows: Vec<BenefitRow>,
+    /// Standing trees, with or without a measurement up to the year.
+    pub standing_trees: usize,
+}
+
+/// The engine's settings from the inventory's settings table.
+pub fn science_settings(store: &Store) -> Result<ScienceSettings, CliError> {
+    let pairs = store.settings()?;
+    ScienceSettings::from_pairs(
+        pairs
+            .iter()
+            .filter(|(k, _)| KEYS.contains(&k.as_str()))
+            .map(|(k, v)| (k.as_str(), v.as_str())),
+    )
+    .map_err(|e| CliError::Input(format!("setting {} = '{}': {}", e.key, e.value, e.reason)))
+}
+
+/// Loads the year's weather and trees and computes every standing tree's benefits.
+pub fn run_year(store: &Store, year: Option<i32>) -> Result<YearRun, CliError> {
+    let station = pick_station(store)?;
+    let years = store.weather_years(&station.name)?;
+    let year = match year {
+        Some(y) => y,
+        None => years.first().map(|(y, _)| *y).ok_or_else(|| {
+            CliError::Input(format!(
+                "station '{}' holds no weather; import a year with `streetwood import weather FILE --station \"{}\" --lat {} --elevation {}`",
+                station.name, station.name, station.lat, station.elevation_m
+            ))
+        })?,
+    };
+    let Some(days_held) = years.iter().find(|(y, _)| *y == year).map(|(_, n)| *n) else {
+        return Err(CliError::Input(format!(
+            "no weather for {year} at station '{}'; weather held: {}",
+            station.name,
+            weather_held(store)?
+        )));
+    };
+    let days = store.weather_year(&station.name, year)?;
+    let settings = science_settings(store)?;
+    let science_station = Station {
+        lat_deg: station.lat,
+        elevation_m: station.elevation_m,
+        coastal: station.coastal,
+    };
+    let weather = YearWeather::compute(year, &science_station, &days, &settings);
+    let (species, trees) = store.inventory_for_year(year)?;
+    let params: Vec<SpeciesParams> = species
+        .iter()
+        .map(species_params)
+        .collect::<Result<_, _>>()
+        .map_err(CliError::Input)?;
+    let rows = compute_year(&trees, &params, &weather, &settings);
+    let prices = Prices::for_year(&settings, year);
+    Ok(YearRun {
+        year,
+        station,
+        settings,
+        prices,
+        weather,
+        days_held,
+        rows,
+        standing_trees: trees.len(),
+    })
+}
+
+fn pick_station(store: &Store) -> Result<StationInfo, CliError> {
+    if let Some(station) = store.default_station()? {
+        return Ok(station);
+    }
+    let stations = store.stations()?;
+    let wanted = store.setting("default_station")?.unwrap_or_default();
+    Err(CliError::Input(if stations.is_empty() {
+        "the inventory holds no weather; import a year of daily weather with `streetwood import weather FILE --station NAME --lat DEG --elevation M`".to_string()
+    } else if !wanted.trim().is_empty() {
+        format!(
+            "the default_station setting names '{wanted}', which is not held; stations: {}",
+            stations
+                .iter()
+                .map(|s| s.name.as_str())
+                .collect::<Vec<_>>()
+                .join(", ")
+        )
+    } else {
+        format!(
+            "several weather stations are held ({}); choose one with `streetwood settings set default_station NAME`",
+            stations
+                .iter()
+                .map(|s| s.name.as_str())
+                .collect::<Vec<_>>()
+                .join(", ")
+        )
+    }))
+}
+
+fn weather_held(store: &Store) -> Result<String, CliError> {
+    let mut parts = Vec::new();
+    for station in store.stations()? {
+        let years: Vec<String> = store
+            .weather_years(&station.name)?
+            .iter()
+            .map(|(y, n)| format!("{y} ({n} days)"))
+            .collect();
+        parts.push(format!(
+            "'{}': {}",
+            station.name,
+            if years.is_empty() {
+                "none".to_string()
+            } else {
+                years.join(", ")
+            }
+        ));
+    }
+    Ok(if parts.is_empty() {
+        "none".to_string()
+    } else {
+        parts.join("; ")
+    })
+}
+
+/// One line stating the year, station and prices behind the value column.
+pub fn basis_line(run: &YearRun) -> String {
+    let p = &run.prices;
+    format!(
+        "year {}, weather of station '{}' ({} days held); value = the year's flows at {} {:.2}/t CO2e, {:.2}/m³ stormwater, {:.2}/kWh electricity × cooling share {} (COP {})",
+        run.year,
+        run.station.name,
+        run.days_held,
+        p.currency,
+        p.co2_per_t,
+        p.water_per_m3,
+        p.electricity_per_kwh,
+        p.cooling_value_share,
+        p.cop
+    )
+}
+
+fn warn_partial_year(run: &YearRun) {
+    let without = run.standing_trees - run.rows.len();
+    if without > 0 {
+        eprintln!(
+            "note: {without} of {} standing trees have no measurement dated in or before {} and have no row",
+            run.standing_trees, run.year
+        );
+    }
+    let in_year = if chrono::NaiveDate::from_ymd_opt(run.year, 2, 29).is_some() {
+        366
+    } else {
+        365
+    };
+    if run.days_held < in_year {
+        eprintln!(
+            "warning: station '{}' holds {} of {in_year} days of {}; missing days count as dry with no ET0",
+            run.station.name, run.days_held, run.year
+        );
+    }
+}
+
+/// Formats a number with six significant digits, no exponent (METHODS.md M13: at least 4).
+pub fn number(x: f64) -> String {
+    if x == 0.0 || !x.is_finite() {
+        return "0".to_string();
+    }
+    let magnitude = x.abs().log10().floor() as i32;
+    let decimals = (5 - magnitude).clamp(0, 12) as usize;
+    format!("{x:.decimals$}")
+}
+
+fn option(x: Option<f64>) -> String {
+    x.map(number).unwrap_or_default()
+}
+
+/// `streetwood benefits`.
+pub fn benefits(
+    inventory: &Path,
+    year: Option<i32>,
+    format: BenefitsFormat,
+    out: Option<&PathBuf>,
+) -> Result<(), CliError> {
+    let store = open_store(inventory)?;
+    let run = run_year(&store, year)?;
+    warn_partial_year(&run);
+    eprintln!("{}", basis_line(&run));
+    with_output(out.map(PathBuf::as_path), inventory, |sink| match format {
+        BenefitsFormat::Csv => write_benefits_csv(sink, &run.rows),
+        BenefitsFormat::Json => {
+            let trees: Vec<_> = run.rows.iter().map(benefit_json).collect();
+            let document = json!({
+                "year": run.year,
+                "station": run.station.name,
+                "prices": run.prices,
+                "caution": crate::care::risk::CAUTION,
+                "trees": trees,
+            });
+            serde_json::to_writer_pretty(&mut *sink, &document).map_err(anyhow::Error::from)?;
+            writeln!(sink)?;
+            Ok(())
+        }
+    })
+}
+
+fn write_benefits_csv(sink: &mut dyn Write, rows: &[BenefitRow]) -> Result<(), CliError> {
+    let mut writer = csv::Writer::from_writer(sink);
+    writer.write_record(BENEFIT_COLUMNS).map_err(csv_error)?;
+    for row in rows {
+        let b = &row.benefits;
+        writer
+            .write_record([
+                row.tree_id.to_string(),
+                csv_safe(&row.uid).into_owned(),
+                csv_safe(&row.species).into_owned(),
+                number(b.dbh_cm),
+                option(b.height_m),
+                option(b.crown_width_m),
+                number(b.leaf_area_m2),
+                number(b.biomass_kg),
+                number(b.carbon_kg),
+                number(b.co2e_kg),
+                number(b.co2e_seq_kg_yr),
+                number(b.interception_m3_yr),
+                number(b.transpiration_m3_yr),
+                number(b.cooling_kwh_yr),
+                number(b.value),
+                row.estimated().join(";"),
+            ])
+            .map_err(csv_error)?;
+    }
+    writer.flush()?;
+    Ok(())
+}
+
+fn benefit_json(row: &BenefitRow) -> serde_json::Value {
+    let b = &row.benefits;
+    json!({
+        "tree_id": row.tree_id,
+        "uid": row.uid,
+        "species": row.species,
+        "dbh_cm": b.dbh_cm,
+        "height_m": b.height_m,
+        "crown_width_m": b.crown_width_m,
+        "leaf_area_m2": b.leaf_area_m2,
+        "biomass_kg": b.biomass_kg,
+        "carbon_kg": b.carbon_kg,
+        "co2e_kg": b.co2e_kg,
+        "co2e_seq_kg_yr": b.co2e_seq_kg_yr,
+        "interception_m3_yr": b.interception_m3_yr,
+        "transpiration_m3_yr": b.transpiration_m3_yr,
+        "cooling_kwh_yr": b.cooling_kwh_yr,
+        "value": b.value,
+        "estimated": row.estimated(),
+    })
+}
+
+/// Columns of the summary tables: (name, unit, getter).
+type SummaryColumn = (&'static str, &'static str, fn(&SummaryRow) -> f64);
+
+const SUMMARY_COLUMNS: [SummaryColumn; 11] = [
+    ("mean_dbh_cm", "cm", |r| r.mean_dbh_cm),
+    ("crown_projection_m2", "m²", |r| r.crown_projection_m2),
+    ("leaf_area_m2", "m²", |r| r.leaf_area_m2),
+    ("biomass_kg", "kg", |r| r.biomass_kg),
+    ("carbon_kg", "kg", |r| r.carbon_kg),
+    ("co2e_kg", "kg", |r| r.co2e_kg),
+    ("co2e_seq_kg_yr", "kg/yr", |r| r.co2e_seq_kg_yr),
+    ("interception_m3_yr", "m³/yr", |r| r.interception_m3_yr),
+    ("transpiration_m3_yr", "m³/yr", |r| r.transpiration_m3_yr),
+    ("cooling_kwh_yr", "kWh/yr", |r| r.cooling_kwh_yr),
+    ("value", "/yr", |r| r.value),
+];
+
+/// `streetwood summary`.
+pub fn summary(
+    inventory: &Path,
+    year: Option<i32>,
+    by: SummaryBy,
+    format: SummaryFormat,
+    out: Option<&PathBuf>,
+) -> Result<(), CliError> {
+    let store = open_store(inventory)?;
+    let run = run_year(&store, year)?;
+    warn_partial_year(&run);
+    let (mut groups, total) = summarize(&run.rows, by.into());
+    if by == SummaryBy::None {
+        // One group of everything is the total itself.
+        groups.clear();
+    }
+    with_output(out.map(PathBuf::as_path), inventory, |sink| match format {
+        SummaryFormat::Csv => {
+            let mut writer = csv::Writer::from_writer(sink);
+            let mut header = vec!["group", "trees"];
+            header.extend(SUMMARY_COLUMNS.iter().map(|(name, _, _)| *name));
+            header.push("estimated_trees");
+            writer.write_record(&header).map_err(csv_error)?;
+            for row in groups.iter().chain(std::iter::once(&total)) {
+                let mut cells = vec![csv_safe(&row.group).into_owned(), row.trees.to_string()];
+                cells.extend(SUMMARY_COLUMNS.iter().map(|(_, _, get)| number(get(row))));
+                cells.push(row.estimated_trees.to_string());
+                writer.write_record(&cells).map_err(csv_error)?;
+            }
+            writer.flush()?;
+            Ok(())
+        }
+        SummaryFormat::Json => {
+            let document = json!({
+                "year": run.year,
+                "station": run.station.name,
+                "by": GroupBy::from(by),
+                "prices": run.prices,
+                "groups": groups,
+                "total": total,
+                "caution": crate::care::risk::CAUTION,
+            });
+            serde_json::to_writer_pretty(&mut *sink, &document).map_err(anyhow::Error::from)?;
+            writeln!(sink)?;
+            Ok(())
+        }
+        SummaryFormat::Md => write_summary_md(sink, &run, by, &groups, &total),
+    })
+}
+
+fn md_cell(text: &str) -> String {
+    text.replace('|', "\\|").replace(['\n', '\r'], " ")
+}
+
+fn write_summary_md(
+    sink: &mut dyn Write,
+    run: &YearRun,
+    by: SummaryBy,
+    groups: &[SummaryRow],
+    total: &SummaryRow,
+) -> Result<(), CliError> {
+    let by_label = match by {
+        SummaryBy::Species => "species",
+        SummaryBy::Street => "street",
+        SummaryBy::Zone => "zone",
+        SummaryBy::Condition => "condition",
+        SummaryBy::None => "group",
+    };
+    writeln!(sink, "# Street-tree benefits, {}\n", run.year)?;
+    writeln!(sink, "{}.\n", basis_line(run))?;
+    let mut header = format!("| {by_label} | trees |");
+    let mut rule = "|---|---:|".to_string();
+    for (name, unit, _) in SUMMARY_COLUMNS {
+        let unit = if name == "value" {
+            format!("{}{unit}", run.prices.currency)
+        } else {
+            unit.to_string()
+        };
+        header.push_str(&format!(" {name} ({unit}) |"));
+        rule.push_str("---:|");
+    }
+    writeln!(sink, "{header}\n{rule}")?;
+    for row in groups.iter().chain(std::iter::once(total)) {
+        let name = if std::ptr::eq(row, total) {
+            "**total**".to_string()
+        } else {
+            md_cell(&row.group)
+        };
+        let mut line = format!("| {name} | {} |", row.trees);
+        for (_, _, get) in SUMMARY_COLUMNS {
+            line.push_str(&format!(" {} |", grouped_thousands(get(row))));
+        }
+        writeln!(sink, "{line}")?;
+    }
+    writeln!(
+        sink,
+        "\n{} of {} trees have an estimated input (see `streetwood benefits`, column `estimated`). \
+         Stored carbon is reported, not valued; cooling is a latent-heat equivalence, not metered savings.\n",
+        total.estimated_trees, total.trees
+    )?;
+    writeln!(sink, "_{}_", crate::care::risk::CAUTION)?;
+    Ok(())
+}
+
+/// A number with two decimals and thousands separators, for reading.
+fn grouped_thousands(x: f64) -> String {
+    let text = format!("{:.2}", x.abs());
+    let (whole, fraction) = text.split_once('.').unwrap_or((&text, "00"));
+    let mut grouped = String::new();
+    for (i, c) in whole.chars().enumerate() {
+        if i > 0 && (whole.len() - i) % 3 == 0 {
+            grouped.push(',');
+        }
+        grouped.push(c);
+    }
+    format!("{}{grouped}.{fraction}", if x < 0.0 { "-" } else { "" })
+}
+
+/// `streetwood explain TREE`.
+pub fn explain(inventory: &Path, tree: &str, year: Option<i32>) -> Result<(), CliError> {
+    let store = open_store(inventory)?;
+    let tree_id = store.find_tree(tree)?.ok_or_else(|| {
+        CliError::Input(format!(
+            "no tree '{tree}' (give its id, uid or a unique uid prefix)"
+        ))
+    })?;
+    let run = run_year(&store, year)?;
+    let Some(row) = run.rows.iter().find(|r| r.tree_id == tree_id) else {
+        return Err(CliError::Input(format!(
+            "tree {tree_id} has no benefits in {}: it is not standing, or has no measurement up to that year",
+            run.year
+        )));
+    };
+    with_output(None, inventory, |out| {
+        writeln!(
+            out,
+            "Tree {} ({}), {}: {}",
+            row.tree_id,
+            row.uid,
+            row.species,
+            basis_line(&run)
+        )?;
+        let estimated = row.estimated();
+        writeln!(
+            out,
+            "Estimated inputs: {}\n",
+            if estimated.is_empty() {
+                "none".to_string()
+            } else {
+                estimated.join(", ")
+            }
+        )?;
+        let steps = row.benefits.explain(&run.prices.currency);
+        let width = steps
+            .iter()
+            .map(|s| s.label.chars().count())
+            .max()
+            .unwrap_or(10);
+        for step in steps {
+            writeln!(
+                out,
+                "{:<width$}  {:>14} {:<10}  {}",
+                step.label,
+                number(step.value),
+                step.unit,
+                step.source
+            )?;
+        }
+        writeln!(out, "\n{}", crate::care::risk::CAUTION)?;
+        Ok(())
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn numbers_keep_six_significant_digits() {
+        assert_eq!(number(196.70123456), "196.701");
+        assert_eq!(number(0.000123456789), "0.000123457");
+        assert_eq!(number(12345.678), "12345.7");
+        assert_eq!(number(0.0), "0");
+        assert_eq!(grouped_thousands(1234567.891), "1,234,567.89");
+        assert_eq!(grouped_thousands(-12.5), "-12.50");
+    }
+}
