@@ -115,6 +115,9 @@ pub struct TreeRecord {
     pub dieback_pct: Option<f64>,
     pub condition: Option<ConditionWord>,
     pub notes: Option<String>,
+    /// Who measured (the field log's crew; not a column of the trees CSV).
+    #[serde(default)]
+    pub measured_by: Option<String>,
 }
 
 impl TreeRecord {

@@ -22,6 +22,25 @@ impl ZoneIndex {
         }
     }
 
+    /// Builds the index from stored zones: (id, name, GeoJSON geometry text of a Polygon or MultiPolygon).
+    pub fn from_geometry_json(zones: &[(i64, String, String)]) -> Result<Self, String> {
+        let mut shapes = Vec::new();
+        for (id, name, json) in zones {
+            let geometry: geojson::Geometry = json
+                .parse::<geojson::Geometry>()
+                .map_err(|e| format!("zone '{name}': {e}"))?;
+            let shape = match &geometry.value {
+                geojson::GeometryValue::Polygon { .. } => {
+                    geo::Polygon::try_from(&geometry.value).map(|p| MultiPolygon::new(vec![p]))
+                }
+                _ => MultiPolygon::try_from(&geometry.value),
+            }
+            .map_err(|e| format!("zone '{name}': {e}"))?;
+            shapes.push((*id, shape));
+        }
+        Ok(ZoneIndex::new(shapes))
+    }
+
     /// The zone containing the point (a point on a boundary counts as inside).
     pub fn zone_of(&self, lon: f64, lat: f64) -> Option<i64> {
         let point = Point::new(lon, lat);

@@ -8,15 +8,10 @@ use serde_json::json;
 
 use super::{CliError, csv_error, open_store, with_output};
 use crate::io::csv_safe;
-use crate::model::StationInfo;
 use crate::science::inventory::{
-    BenefitRow, GroupBy, SummaryRow, compute_year, species_params, summarize,
+    BenefitRow, GroupBy, SummaryRow, summarize,
 };
-use crate::science::money::Prices;
-use crate::science::settings::{KEYS, ScienceSettings};
-use crate::science::tree_year::SpeciesParams;
-use crate::science::weather::{Station, YearWeather};
-use crate::store::Store;
+pub use crate::store::benefits::YearRun;
 
 /// The `benefits` columns of DESIGN.md, in order, plus `estimated`.
 pub const BENEFIT_COLUMNS: [&str; 16] = [
@@ -73,133 +68,6 @@ impl From<SummaryBy> for GroupBy {
             SummaryBy::None => GroupBy::None,
         }
     }
-}
-
-/// Everything one year's computation needs, loaded from the store.
-pub struct YearRun {
-    pub year: i32,
-    pub station: StationInfo,
-    pub settings: ScienceSettings,
-    pub prices: Prices,
-    pub weather: YearWeather,
-    pub days_held: i64,
-    pub rows: Vec<BenefitRow>,
-    /// Standing trees, with or without a measurement up to the year.
-    pub standing_trees: usize,
-}
-
-/// The engine's settings from the inventory's settings table.
-pub fn science_settings(store: &Store) -> Result<ScienceSettings, CliError> {
-    let pairs = store.settings()?;
-    ScienceSettings::from_pairs(
-        pairs
-            .iter()
-            .filter(|(k, _)| KEYS.contains(&k.as_str()))
-            .map(|(k, v)| (k.as_str(), v.as_str())),
-    )
-    .map_err(|e| CliError::Input(format!("setting {} = '{}': {}", e.key, e.value, e.reason)))
-}
-
-/// Loads the year's weather and trees and computes every standing tree's benefits.
-pub fn run_year(store: &Store, year: Option<i32>) -> Result<YearRun, CliError> {
-    let station = pick_station(store)?;
-    let years = store.weather_years(&station.name)?;
-    let year = match year {
-        Some(y) => y,
-        None => years.first().map(|(y, _)| *y).ok_or_else(|| {
-            CliError::Input(format!(
-                "station '{}' holds no weather; import a year with `streetwood import weather FILE --station \"{}\" --lat {} --elevation {}`",
-                station.name, station.name, station.lat, station.elevation_m
-            ))
-        })?,
-    };
-    let Some(days_held) = years.iter().find(|(y, _)| *y == year).map(|(_, n)| *n) else {
-        return Err(CliError::Input(format!(
-            "no weather for {year} at station '{}'; weather held: {}",
-            station.name,
-            weather_held(store)?
-        )));
-    };
-    let days = store.weather_year(&station.name, year)?;
-    let settings = science_settings(store)?;
-    let science_station = Station {
-        lat_deg: station.lat,
-        elevation_m: station.elevation_m,
-        coastal: station.coastal,
-    };
-    let weather = YearWeather::compute(year, &science_station, &days, &settings);
-    let (species, trees) = store.inventory_for_year(year)?;
-    let params: Vec<SpeciesParams> = species
-        .iter()
-        .map(species_params)
-        .collect::<Result<_, _>>()
-        .map_err(CliError::Input)?;
-    let rows = compute_year(&trees, &params, &weather, &settings);
-    let prices = Prices::for_year(&settings, year);
-    Ok(YearRun {
-        year,
-        station,
-        settings,
-        prices,
-        weather,
-        days_held,
-        rows,
-        standing_trees: trees.len(),
-    })
-}
-
-fn pick_station(store: &Store) -> Result<StationInfo, CliError> {
-    if let Some(station) = store.default_station()? {
-        return Ok(station);
-    }
-    let stations = store.stations()?;
-    let wanted = store.setting("default_station")?.unwrap_or_default();
-    Err(CliError::Input(if stations.is_empty() {
-        "the inventory holds no weather; import a year of daily weather with `streetwood import weather FILE --station NAME --lat DEG --elevation M`".to_string()
-    } else if !wanted.trim().is_empty() {
-        format!(
-            "the default_station setting names '{wanted}', which is not held; stations: {}",
-            stations
-                .iter()
-                .map(|s| s.name.as_str())
-                .collect::<Vec<_>>()
-                .join(", ")
-        )
-    } else {
-        format!(
-            "several weather stations are held ({}); choose one with `streetwood settings set default_station NAME`",
-            stations
-                .iter()
-                .map(|s| s.name.as_str())
-                .collect::<Vec<_>>()
-                .join(", ")
-        )
-    }))
-}
-
-fn weather_held(store: &Store) -> Result<String, CliError> {
-    let mut parts = Vec::new();
-    for station in store.stations()? {
-        let years: Vec<String> = store
-            .weather_years(&station.name)?
-            .iter()
-            .map(|(y, n)| format!("{y} ({n} days)"))
-            .collect();
-        parts.push(format!(
-            "'{}': {}",
-            station.name,
-            if years.is_empty() {
-                "none".to_string()
-            } else {
-                years.join(", ")
-            }
-        ));
-    }
-    Ok(if parts.is_empty() {
-        "none".to_string()
-    } else {
-        parts.join("; ")
-    })
 }
 
 /// One line stating the year, station and prices behind the value column.
@@ -262,7 +130,7 @@ pub fn benefits(
     out: Option<&PathBuf>,
 ) -> Result<(), CliError> {
     let store = open_store(inventory)?;
-    let run = run_year(&store, year)?;
+    let run = store.year_benefits(year)?;
     warn_partial_year(&run);
     eprintln!("{}", basis_line(&run));
     with_output(out.map(PathBuf::as_path), inventory, |sink| match format {
@@ -361,7 +229,7 @@ pub fn summary(
     out: Option<&PathBuf>,
 ) -> Result<(), CliError> {
     let store = open_store(inventory)?;
-    let run = run_year(&store, year)?;
+    let run = store.year_benefits(year)?;
     warn_partial_year(&run);
     let (mut groups, total) = summarize(&run.rows, by.into());
     if by == SummaryBy::None {
@@ -478,7 +346,7 @@ pub fn explain(inventory: &Path, tree: &str, year: Option<i32>) -> Result<(), Cl
             "no tree '{tree}' (give its id, uid or a unique uid prefix)"
         ))
     })?;
-    let run = run_year(&store, year)?;
+    let run = store.year_benefits(year)?;
     let Some(row) = run.rows.iter().find(|r| r.tree_id == tree_id) else {
         return Err(CliError::Input(format!(
             "tree {tree_id} has no benefits in {}: it is not standing, or has no measurement up to that year",

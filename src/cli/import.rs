@@ -200,22 +200,8 @@ pub fn with_zones(
 }
 
 fn zone_index(store: &Store) -> Result<ZoneIndex, CliError> {
-    let mut shapes = Vec::new();
-    for (id, name, json) in store.zones()? {
-        let text = format!(
-            r#"{{"type":"FeatureCollection","features":[{{"type":"Feature","properties":{{"name":"x"}},"geometry":{json}}}]}}"#
-        );
-        let (zones, _) = zones_geojson::read_zones(&text).map_err(|e| {
-            CliError::Other(anyhow::anyhow!(
-                "stored zone '{name}' is unreadable: {}",
-                e.reason
-            ))
-        })?;
-        for zone in zones {
-            shapes.push((id, zone.shape));
-        }
-    }
-    Ok(ZoneIndex::new(shapes))
+    ZoneIndex::from_geometry_json(&store.zones()?)
+        .map_err(|e| CliError::Other(anyhow::anyhow!("a stored zone is unreadable: {e}")))
 }
 
 fn prefix_file(file: &Path, error: crate::store::StoreError) -> CliError {

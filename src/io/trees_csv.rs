@@ -382,6 +382,7 @@ pub fn validate_tree_fields<'a>(
         dieback_pct: dieback,
         condition,
         notes: text(Column::Notes),
+        measured_by: None,
     })
 }
 

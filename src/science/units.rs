@@ -36,6 +36,52 @@ pub fn equivalent_dbh_cm(stems_cm: &[f64]) -> f64 {
     stems_cm.iter().map(|d| d * d).sum::<f64>().sqrt()
 }
 
+/// A length unit a person may type after a number.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum LengthUnit {
+    Cm,
+    M,
+    Inch,
+    Foot,
+}
+
+impl LengthUnit {
+    /// Centimetres in one of this unit (exact, NIST SP 811).
+    fn cm(self) -> f64 {
+        match self {
+            LengthUnit::Cm => 1.0,
+            LengthUnit::M => 100.0,
+            LengthUnit::Inch => CM_PER_INCH,
+            LengthUnit::Foot => M_PER_FOOT * 100.0,
+        }
+    }
+}
+
+/// Reads a length as typed in the field — `30`, `30 cm`, `12 in`, `12"`, `40 ft`, `40'`, `1.5 m` — and
+/// returns it in `target` units. A bare number is in `default`. Exact NIST SP 811 factors.
+pub fn parse_length(text: &str, default: LengthUnit, target: LengthUnit) -> Result<f64, String> {
+    let trimmed = text.trim();
+    let split = trimmed
+        .find(|c: char| !(c.is_ascii_digit() || c == '.' || c == '-' || c == '+'))
+        .unwrap_or(trimmed.len());
+    let (number, unit) = trimmed.split_at(split);
+    let value: f64 = number
+        .trim()
+        .parse()
+        .ok()
+        .filter(|v: &f64| v.is_finite())
+        .ok_or_else(|| format!("'{trimmed}' is not a number (e.g. 30, 30 cm, 12 in, 40 ft)"))?;
+    let unit = match unit.trim().to_ascii_lowercase().as_str() {
+        "" => default,
+        "cm" => LengthUnit::Cm,
+        "m" => LengthUnit::M,
+        "in" | "inch" | "inches" | "\"" => LengthUnit::Inch,
+        "ft" | "foot" | "feet" | "'" => LengthUnit::Foot,
+        other => return Err(format!("unknown unit '{other}' (use cm, m, in or ft)")),
+    };
+    Ok(value * unit.cm() / target.cm())
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -68,5 +114,22 @@ mod tests {
         assert_relative_eq!(equivalent_dbh_cm(&[31.5]), 31.5, max_relative = 1e-15);
         // 3-4-5 triangle: two stems of 30 and 40 cm equal one of 50 cm.
         assert_relative_eq!(equivalent_dbh_cm(&[30.0, 40.0]), 50.0, max_relative = 1e-15);
+    }
+
+    // NIST SP 811 B.8 factors: 12 in = 30.48 cm, 40 ft = 12.192 m.
+    #[test]
+    fn typed_lengths_with_units() {
+        use LengthUnit::*;
+        assert_eq!(parse_length("30", Cm, Cm), Ok(30.0));
+        assert_eq!(parse_length(" 30 cm", Cm, Cm), Ok(30.0));
+        assert_relative_eq!(parse_length("12 in", Cm, Cm).unwrap_or(0.0), 30.48, max_relative = 1e-15);
+        assert_relative_eq!(parse_length("12\"", Cm, Cm).unwrap_or(0.0), 30.48, max_relative = 1e-15);
+        assert_relative_eq!(parse_length("40 ft", M, M).unwrap_or(0.0), 12.192, max_relative = 1e-15);
+        assert_relative_eq!(parse_length("40'", M, M).unwrap_or(0.0), 12.192, max_relative = 1e-15);
+        assert_relative_eq!(parse_length("1.5m", Cm, Cm).unwrap_or(0.0), 150.0, max_relative = 1e-15);
+        assert_relative_eq!(parse_length("10", Inch, Cm).unwrap_or(0.0), 25.4, max_relative = 1e-15);
+        assert!(parse_length("thirty", Cm, Cm).is_err());
+        assert!(parse_length("30 yards", Cm, Cm).is_err());
+        assert!(parse_length("", Cm, Cm).is_err());
     }
 }

@@ -3,10 +3,13 @@
 use rusqlite::params;
 
 use super::{Store, StoreError};
-use crate::model::{SiteKind, Species, TreeStatus};
+use crate::model::{SiteKind, Species, StationInfo, TreeStatus};
 use crate::science::condition::ConditionWord;
-use crate::science::inventory::InventoryTree;
-use crate::science::tree_year::Measurement;
+use crate::science::inventory::{BenefitRow, InventoryTree, compute_year, species_params};
+use crate::science::money::Prices;
+use crate::science::settings::{KEYS, ScienceSettings};
+use crate::science::tree_year::{Measurement, SpeciesParams};
+use crate::science::weather::{Station, YearWeather};
 
 impl Store {
     /// The species list and every standing tree with its measurements dated on or before 31 December
@@ -115,3 +118,138 @@ impl Store {
         Ok(None)
     }
 }
+
+/// Everything one year's computation needs, loaded from the store.
+pub struct YearRun {
+    pub year: i32,
+    pub station: StationInfo,
+    pub settings: ScienceSettings,
+    pub prices: Prices,
+    pub weather: YearWeather,
+    pub days_held: i64,
+    pub rows: Vec<BenefitRow>,
+    /// Standing trees, with or without a measurement up to the year.
+    pub standing_trees: usize,
+}
+
+/// The engine's settings from the inventory's settings table.
+fn science_settings(store: &Store) -> Result<ScienceSettings, StoreError> {
+    let pairs = store.settings()?;
+    ScienceSettings::from_pairs(
+        pairs
+            .iter()
+            .filter(|(k, _)| KEYS.contains(&k.as_str()))
+            .map(|(k, v)| (k.as_str(), v.as_str())),
+    )
+    .map_err(|e| StoreError::Invalid(format!("setting {} = '{}': {}", e.key, e.value, e.reason)))
+}
+
+impl Store {
+    /// Loads the year's weather (default: the latest year held at the default station) and every
+    /// standing tree, and computes the benefits of each (METHODS.md M13).
+    pub fn year_benefits(&self, year: Option<i32>) -> Result<YearRun, StoreError> {
+        run_year(self, year)
+    }
+}
+
+fn run_year(store: &Store, year: Option<i32>) -> Result<YearRun, StoreError> {
+    let station = pick_station(store)?;
+    let years = store.weather_years(&station.name)?;
+    let year = match year {
+        Some(y) => y,
+        None => years.first().map(|(y, _)| *y).ok_or_else(|| {
+            StoreError::Invalid(format!(
+                "station '{}' holds no weather; import a year with `streetwood import weather FILE --station \"{}\" --lat {} --elevation {}`",
+                station.name, station.name, station.lat, station.elevation_m
+            ))
+        })?,
+    };
+    let Some(days_held) = years.iter().find(|(y, _)| *y == year).map(|(_, n)| *n) else {
+        return Err(StoreError::Invalid(format!(
+            "no weather for {year} at station '{}'; weather held: {}",
+            station.name,
+            weather_held(store)?
+        )));
+    };
+    let days = store.weather_year(&station.name, year)?;
+    let settings = science_settings(store)?;
+    let science_station = Station {
+        lat_deg: station.lat,
+        elevation_m: station.elevation_m,
+        coastal: station.coastal,
+    };
+    let weather = YearWeather::compute(year, &science_station, &days, &settings);
+    let (species, trees) = store.inventory_for_year(year)?;
+    let params: Vec<SpeciesParams> = species
+        .iter()
+        .map(species_params)
+        .collect::<Result<_, _>>()
+        .map_err(StoreError::Invalid)?;
+    let rows = compute_year(&trees, &params, &weather, &settings);
+    let prices = Prices::for_year(&settings, year);
+    Ok(YearRun {
+        year,
+        station,
+        settings,
+        prices,
+        weather,
+        days_held,
+        rows,
+        standing_trees: trees.len(),
+    })
+}
+
+fn pick_station(store: &Store) -> Result<StationInfo, StoreError> {
+    if let Some(station) = store.default_station()? {
+        return Ok(station);
+    }
+    let stations = store.stations()?;
+    let wanted = store.setting("default_station")?.unwrap_or_default();
+    Err(StoreError::Invalid(if stations.is_empty() {
+        "the inventory holds no weather; import a year of daily weather with `streetwood import weather FILE --station NAME --lat DEG --elevation M`".to_string()
+    } else if !wanted.trim().is_empty() {
+        format!(
+            "the default_station setting names '{wanted}', which is not held; stations: {}",
+            stations
+                .iter()
+                .map(|s| s.name.as_str())
+                .collect::<Vec<_>>()
+                .join(", ")
+        )
+    } else {
+        format!(
+            "several weather stations are held ({}); choose one with `streetwood settings set default_station NAME`",
+            stations
+                .iter()
+                .map(|s| s.name.as_str())
+                .collect::<Vec<_>>()
+                .join(", ")
+        )
+    }))
+}
+
+fn weather_held(store: &Store) -> Result<String, StoreError> {
+    let mut parts = Vec::new();
+    for station in store.stations()? {
+        let years: Vec<String> = store
+            .weather_years(&station.name)?
+            .iter()
+            .map(|(y, n)| format!("{y} ({n} days)"))
+            .collect();
+        parts.push(format!(
+            "'{}': {}",
+            station.name,
+            if years.is_empty() {
+                "none".to_string()
+            } else {
+                years.join(", ")
+            }
+        ));
+    }
+    Ok(if parts.is_empty() {
+        "none".to_string()
+    } else {
+        parts.join("; ")
+    })
+}
+

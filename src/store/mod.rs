@@ -7,6 +7,7 @@ pub mod audit;
 pub mod benefits;
 pub mod care;
 pub mod migrate;
+pub mod roster;
 mod seed;
 pub mod settings;
 pub mod trees;

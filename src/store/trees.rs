@@ -204,7 +204,7 @@ fn import_rows(
     let mut insert_measurement = tx.prepare_cached(
         "INSERT INTO measurements (tree_id, measured_on, stems_cm, dbh_cm, height_m, crown_base_m, crown_width_m,
                                    crown_width2_m, dieback_pct, condition, measured_by, created_at)
-         VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9, ?10, NULL, ?11)",
+         VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9, ?10, ?12, ?11)",
     )?;
     for row in rows {
         let record = &row.record;
@@ -298,6 +298,7 @@ fn import_rows(
                 record.dieback_pct,
                 record.condition.map(ConditionWord::as_str),
                 stamp,
+                record.measured_by,
             ])
             .map_err(|e| fail(constraint_message(e)))?;
         outcome.measurements_added += 1;
@@ -420,11 +421,12 @@ fn stored_record_from_row(row: &Row<'_>) -> Result<StoredTreeRecord, StoreError>
             dieback_pct: row.get(17)?,
             condition: parse_condition(18, row.get(18)?)?,
             notes: row.get(19)?,
+            measured_by: None,
         },
     })
 }
 
-fn summary_from_row(row: &Row<'_>) -> rusqlite::Result<TreeSummary> {
+pub(super) fn summary_from_row(row: &Row<'_>) -> rusqlite::Result<TreeSummary> {
     Ok(TreeSummary {
         id: row.get(0)?,
         uid: row.get(1)?,
