@@ -24,10 +24,11 @@ fn main() -> ExitCode {
 
 fn open_tui(args: &Cli) -> Result<(), CliError> {
     let path = cli::inventory_path(args)?;
-    let store = Store::open_existing(&path)?;
+    let mut store = Store::open_existing(&path)?;
     let settings = tui::app::AppSettings {
         us_units: args.units == Some(Units::Us)
             || (args.units.is_none() && store.setting("units")?.as_deref() == Some("us")),
+        no_color: std::env::var_os("NO_COLOR").is_some_and(|v| !v.is_empty()),
     };
-    tui::run(&store, settings).map_err(CliError::Other)
+    tui::run(&mut store, settings).map_err(CliError::Other)
 }

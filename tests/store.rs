@@ -32,6 +32,7 @@ fn tree(uid: &str, species: &str, dbh: f64, on: &str) -> TreeRecord {
         dieback_pct: None,
         condition: None,
         notes: None,
+        measured_by: Some("crew-a".to_string()),
     }
 }
 

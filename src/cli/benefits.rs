@@ -8,9 +8,7 @@ use serde_json::json;
 
 use super::{CliError, csv_error, open_store, with_output};
 use crate::io::csv_safe;
-use crate::science::inventory::{
-    BenefitRow, GroupBy, SummaryRow, summarize,
-};
+use crate::science::inventory::{BenefitRow, GroupBy, SummaryRow, summarize};
 pub use crate::store::benefits::YearRun;
 
 /// The `benefits` columns of DESIGN.md, in order, plus `estimated`.

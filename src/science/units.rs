@@ -122,12 +122,36 @@ mod tests {
         use LengthUnit::*;
         assert_eq!(parse_length("30", Cm, Cm), Ok(30.0));
         assert_eq!(parse_length(" 30 cm", Cm, Cm), Ok(30.0));
-        assert_relative_eq!(parse_length("12 in", Cm, Cm).unwrap_or(0.0), 30.48, max_relative = 1e-15);
-        assert_relative_eq!(parse_length("12\"", Cm, Cm).unwrap_or(0.0), 30.48, max_relative = 1e-15);
-        assert_relative_eq!(parse_length("40 ft", M, M).unwrap_or(0.0), 12.192, max_relative = 1e-15);
-        assert_relative_eq!(parse_length("40'", M, M).unwrap_or(0.0), 12.192, max_relative = 1e-15);
-        assert_relative_eq!(parse_length("1.5m", Cm, Cm).unwrap_or(0.0), 150.0, max_relative = 1e-15);
-        assert_relative_eq!(parse_length("10", Inch, Cm).unwrap_or(0.0), 25.4, max_relative = 1e-15);
+        assert_relative_eq!(
+            parse_length("12 in", Cm, Cm).unwrap_or(0.0),
+            30.48,
+            max_relative = 1e-15
+        );
+        assert_relative_eq!(
+            parse_length("12\"", Cm, Cm).unwrap_or(0.0),
+            30.48,
+            max_relative = 1e-15
+        );
+        assert_relative_eq!(
+            parse_length("40 ft", M, M).unwrap_or(0.0),
+            12.192,
+            max_relative = 1e-15
+        );
+        assert_relative_eq!(
+            parse_length("40'", M, M).unwrap_or(0.0),
+            12.192,
+            max_relative = 1e-15
+        );
+        assert_relative_eq!(
+            parse_length("1.5m", Cm, Cm).unwrap_or(0.0),
+            150.0,
+            max_relative = 1e-15
+        );
+        assert_relative_eq!(
+            parse_length("10", Inch, Cm).unwrap_or(0.0),
+            25.4,
+            max_relative = 1e-15
+        );
         assert!(parse_length("thirty", Cm, Cm).is_err());
         assert!(parse_length("30 yards", Cm, Cm).is_err());
         assert!(parse_length("", Cm, Cm).is_err());

@@ -252,4 +252,3 @@ fn weather_held(store: &Store) -> Result<String, StoreError> {
         parts.join("; ")
     })
 }
-

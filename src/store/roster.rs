@@ -103,7 +103,8 @@ pub struct TreeDetail {
     pub work: Vec<WorkLine>,
 }
 
-const SUMMARY_SELECT: &str = "SELECT t.id, t.uid, s.scientific_name, s.common_name, t.street, t.house_number, t.status,
+const SUMMARY_SELECT: &str =
+    "SELECT t.id, t.uid, s.scientific_name, s.common_name, t.street, t.house_number, t.status,
         m.dbh_cm, m.height_m, m.dieback_pct, m.condition, m.measured_on, z.name
  FROM trees t JOIN species s ON s.id = t.species_id
  LEFT JOIN zones z ON z.id = t.zone_id
@@ -114,9 +115,9 @@ impl Store {
     /// The compact index of every tree, in id order.
     pub fn roster_index(&self) -> Result<RosterIndexData, StoreError> {
         let species: Vec<(i64, String, String)> = {
-            let mut stmt = self
-                .conn
-                .prepare("SELECT id, scientific_name, common_name FROM species ORDER BY scientific_name")?;
+            let mut stmt = self.conn.prepare(
+                "SELECT id, scientific_name, common_name FROM species ORDER BY scientific_name",
+            )?;
             stmt.query_map([], |r| Ok((r.get(0)?, r.get(1)?, r.get(2)?)))?
                 .collect::<Result<_, _>>()?
         };
@@ -124,19 +125,31 @@ impl Store {
             let mut stmt = self.conn.prepare(
                 "SELECT DISTINCT street FROM trees WHERE street IS NOT NULL AND street <> '' ORDER BY street",
             )?;
-            stmt.query_map([], |r| r.get(0))?.collect::<Result<_, _>>()?
+            stmt.query_map([], |r| r.get(0))?
+                .collect::<Result<_, _>>()?
         };
         let zones: Vec<(i64, String)> = {
-            let mut stmt = self.conn.prepare("SELECT id, name FROM zones ORDER BY name")?;
+            let mut stmt = self
+                .conn
+                .prepare("SELECT id, name FROM zones ORDER BY name")?;
             stmt.query_map([], |r| Ok((r.get(0)?, r.get(1)?)))?
                 .collect::<Result<_, _>>()?
         };
-        let species_pos: std::collections::HashMap<i64, u32> =
-            species.iter().enumerate().map(|(i, s)| (s.0, i as u32)).collect();
-        let street_pos: std::collections::HashMap<&str, u32> =
-            streets.iter().enumerate().map(|(i, s)| (s.as_str(), i as u32)).collect();
-        let zone_pos: std::collections::HashMap<i64, u32> =
-            zones.iter().enumerate().map(|(i, z)| (z.0, i as u32)).collect();
+        let species_pos: std::collections::HashMap<i64, u32> = species
+            .iter()
+            .enumerate()
+            .map(|(i, s)| (s.0, i as u32))
+            .collect();
+        let street_pos: std::collections::HashMap<&str, u32> = streets
+            .iter()
+            .enumerate()
+            .map(|(i, s)| (s.as_str(), i as u32))
+            .collect();
+        let zone_pos: std::collections::HashMap<i64, u32> = zones
+            .iter()
+            .enumerate()
+            .map(|(i, z)| (z.0, i as u32))
+            .collect();
         let mut stmt = self.conn.prepare(
             "SELECT t.id, t.species_id, t.street, t.house_number, t.zone_id, t.status, m.dbh_cm, m.dieback_pct,
                     m.condition,
@@ -213,12 +226,19 @@ impl Store {
     }
 
     /// Trees whose uid starts with `prefix` (at most `limit`), using the uid index.
-    pub fn tree_ids_by_uid_prefix(&self, prefix: &str, limit: usize) -> Result<Vec<i64>, StoreError> {
+    pub fn tree_ids_by_uid_prefix(
+        &self,
+        prefix: &str,
+        limit: usize,
+    ) -> Result<Vec<i64>, StoreError> {
         let mut stmt = self.conn.prepare_cached(
             "SELECT id FROM trees WHERE uid >= ?1 AND uid < ?1 || char(1114111) ORDER BY uid LIMIT ?2",
         )?;
         let ids = stmt
-            .query_map(rusqlite::params![prefix.to_lowercase(), limit as i64], |r| r.get(0))?
+            .query_map(
+                rusqlite::params![prefix.to_lowercase(), limit as i64],
+                |r| r.get(0),
+            )?
             .collect::<Result<Vec<i64>, _>>()?;
         Ok(ids)
     }
@@ -227,7 +247,11 @@ impl Store {
     pub fn tree_detail(&self, tree_id: i64) -> Result<Option<TreeDetail>, StoreError> {
         let summary = self
             .conn
-            .query_row(&format!("{SUMMARY_SELECT} WHERE t.id = ?1"), [tree_id], super::trees::summary_from_row)
+            .query_row(
+                &format!("{SUMMARY_SELECT} WHERE t.id = ?1"),
+                [tree_id],
+                super::trees::summary_from_row,
+            )
             .optional()?;
         let Some(summary) = summary else {
             return Ok(None);
@@ -329,6 +353,10 @@ impl Store {
 
 /// The leading digits of a house number (`"12a"` → 12), for sorting.
 fn leading_number(text: &str) -> u32 {
-    let digits: String = text.trim().chars().take_while(char::is_ascii_digit).collect();
+    let digits: String = text
+        .trim()
+        .chars()
+        .take_while(char::is_ascii_digit)
+        .collect();
     digits.parse().unwrap_or(NONE)
 }

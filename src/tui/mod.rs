@@ -1,10 +1,11 @@
-//! The terminal UI: `app.rs` holds state and the `Action` enum (input → action → state change →
-//! render), one module per view under `views/`, and `query.rs` is the facade views read through (no
-//! SQL here).
+//! The terminal UI: `app.rs` holds state and the `Action` enum (key → action → state change →
+//! render), one module per view under `views/`, shared widgets under `widgets/`, and `query.rs`, the
+//! facade every view reads and writes through (no SQL here).
 
 pub mod app;
 pub mod query;
 pub mod views;
+pub mod widgets;
 
 use std::time::Duration;
 
@@ -14,12 +15,14 @@ use crate::store::Store;
 use app::App;
 use query::Query;
 
-/// Opens the TUI on a store until the user quits. Restores the terminal on every exit path.
-pub fn run(store: &Store, settings: app::AppSettings) -> anyhow::Result<()> {
-    let query = Query::new(store);
-    let mut app = App::new(&query, settings)?;
+/// Opens the TUI on a store until the user quits. `ratatui::init` installs a panic hook that restores
+/// the terminal, and `restore` runs on every other exit path.
+pub fn run(store: &mut Store, settings: app::AppSettings) -> anyhow::Result<()> {
+    let mut query = Query::new(store);
+    let today = chrono::Local::now().date_naive();
+    let mut app = App::new(&query, settings, today)?;
     let mut terminal = ratatui::init();
-    let result = event_loop(&mut terminal, &mut app, &query);
+    let result = event_loop(&mut terminal, &mut app, &mut query);
     ratatui::restore();
     result
 }
@@ -27,24 +30,22 @@ pub fn run(store: &Store, settings: app::AppSettings) -> anyhow::Result<()> {
 fn event_loop(
     terminal: &mut ratatui::DefaultTerminal,
     app: &mut App,
-    query: &Query<'_>,
+    query: &mut Query<'_>,
 ) -> anyhow::Result<()> {
     loop {
         let size = terminal.size()?;
         app.set_viewport(size.height);
-        app.refresh(query)?;
+        if let Err(error) = app.refresh(query) {
+            app.message = Some(format!("error: {error}"));
+        }
         terminal.draw(|frame| app.render(frame))?;
-        if !event::poll(Duration::from_millis(250))? {
+        if !event::poll(Duration::from_millis(500))? {
             continue;
         }
-        match event::read()? {
-            Event::Key(key) if key.kind == KeyEventKind::Press => {
-                if let Some(action) = app.handle_key(key) {
-                    app.update(action);
-                }
-            }
-            Event::Resize(_, _) => {}
-            _ => {}
+        if let Event::Key(key) = event::read()?
+            && key.kind == KeyEventKind::Press
+        {
+            app.on_key(key, query, chrono::Utc::now());
         }
         if app.should_quit() {
             return Ok(());

@@ -1,5 +1,7 @@
-//! Roster: the inventory table. Virtual scrolling: the state keeps only the ordered tree ids and the
-//! rows on screen; each refresh fetches just the visible window.
+//! Roster: the inventory table. Virtual scrolling over an in-memory index of small numbers per tree
+//! (sort, filter and search never load rows); only the rows on screen are fetched.
+
+use std::collections::HashSet;
 
 use ratatui::Frame;
 use ratatui::crossterm::event::{KeyCode, KeyEvent};
@@ -10,10 +12,11 @@ use ratatui::widgets::{Block, Borders, Cell, Row, Table};
 
 use super::super::app::AppSettings;
 use super::super::query::Query;
-use crate::model::TreeSummary;
+use crate::model::{TreeStatus, TreeSummary};
 use crate::science::condition::ConditionBand;
 use crate::science::units::cm_to_inches;
 use crate::store::StoreError;
+use crate::store::roster::{NONE, RosterEntry, RosterIndexData};
 
 /// Movements in the roster.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -26,44 +29,277 @@ pub enum Move {
     Last,
 }
 
+/// Columns the roster sorts by.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum SortKey {
+    Id,
+    Species,
+    Street,
+    Dbh,
+    Condition,
+    Risk,
+    Status,
+    Zone,
+}
+
+impl SortKey {
+    const ALL: [SortKey; 8] = [
+        SortKey::Id,
+        SortKey::Species,
+        SortKey::Street,
+        SortKey::Dbh,
+        SortKey::Condition,
+        SortKey::Risk,
+        SortKey::Status,
+        SortKey::Zone,
+    ];
+
+    fn next(self) -> Self {
+        let i = Self::ALL.iter().position(|k| *k == self).unwrap_or(0);
+        Self::ALL[(i + 1) % Self::ALL.len()]
+    }
+
+    /// Label shown in the status line.
+    pub fn label(self) -> &'static str {
+        match self {
+            SortKey::Id => "id",
+            SortKey::Species => "species",
+            SortKey::Street => "street and number",
+            SortKey::Dbh => "DBH",
+            SortKey::Condition => "condition",
+            SortKey::Risk => "risk rating",
+            SortKey::Status => "status",
+            SortKey::Zone => "zone",
+        }
+    }
+}
+
+/// A roster filter.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum Filter {
+    Species(u32),
+    Street(u32),
+    Zone(u32),
+    Band(ConditionBand),
+    /// Latest risk rating at least this (1 low … 4 extreme).
+    RiskAtLeast(u8),
+    OpenWork,
+    Status(TreeStatus),
+    /// Trees chosen elsewhere (an area on the plan view), with a label.
+    Ids(HashSet<i64>, String),
+}
+
 /// Roster state.
 #[derive(Debug, Clone, Default)]
 pub struct State {
-    ids: Vec<i64>,
+    pub data: RosterIndexData,
+    /// Positions into `data.entries` after filters, search and sort.
+    order: Vec<u32>,
+    sort: Option<(SortKey, bool)>,
+    pub filters: Vec<Filter>,
+    search: String,
+    uid_matches: HashSet<i64>,
     selected: usize,
     offset: usize,
     height: usize,
     rows: Vec<TreeSummary>,
 }
 
+fn band_of(entry: &RosterEntry) -> Option<ConditionBand> {
+    (!entry.dieback_pct.is_nan()).then(|| ConditionBand::from_dieback(f64::from(entry.dieback_pct)))
+}
+
 impl State {
-    /// A roster over these tree ids (in display order).
-    pub fn new(ids: Vec<i64>) -> Self {
-        State {
-            ids,
+    /// A roster over a loaded index.
+    pub fn new(data: RosterIndexData) -> Self {
+        let mut state = State {
+            data,
             height: 20,
             ..State::default()
+        };
+        state.recompute();
+        state
+    }
+
+    /// Reloads the index (after a write), keeping filters, search, sort and the selected tree.
+    pub fn reload(&mut self, data: RosterIndexData) {
+        let keep = self.selected_id();
+        self.data = data;
+        self.recompute();
+        if let Some(id) = keep {
+            self.select_id(id);
         }
     }
 
-    /// Number of trees in the roster.
+    /// Number of trees shown (after filters and search).
     pub fn len(&self) -> usize {
-        self.ids.len()
+        self.order.len()
     }
 
-    /// True when the roster has no trees.
+    /// True when no tree is shown.
     pub fn is_empty(&self) -> bool {
-        self.ids.is_empty()
+        self.order.is_empty()
     }
 
-    /// Index of the selected tree.
+    /// Index of the selected row.
     pub fn selected(&self) -> usize {
         self.selected
     }
 
-    /// The rows currently on screen.
+    /// The id of the selected tree.
+    pub fn selected_id(&self) -> Option<i64> {
+        let position = *self.order.get(self.selected)? as usize;
+        self.data.entries.get(position).map(|e| e.id)
+    }
+
+    /// Selects a tree by id, if shown.
+    pub fn select_id(&mut self, id: i64) -> bool {
+        match self
+            .order
+            .iter()
+            .position(|p| self.data.entries[*p as usize].id == id)
+        {
+            Some(index) => {
+                self.selected = index;
+                self.keep_selection_visible();
+                true
+            }
+            None => false,
+        }
+    }
+
+    /// The rows on screen.
     pub fn visible_rows(&self) -> &[TreeSummary] {
         &self.rows
+    }
+
+    /// The current search text.
+    pub fn search(&self) -> &str {
+        &self.search
+    }
+
+    /// Sets the search (uid prefix matches come from the store) and recomputes.
+    pub fn set_search(&mut self, text: &str, uid_matches: HashSet<i64>) {
+        self.search = text.trim().to_string();
+        self.uid_matches = uid_matches;
+        self.recompute();
+    }
+
+    /// Adds a filter (replacing one of the same kind).
+    pub fn add_filter(&mut self, filter: Filter) {
+        self.filters
+            .retain(|f| std::mem::discriminant(f) != std::mem::discriminant(&filter));
+        self.filters.push(filter);
+        self.recompute();
+    }
+
+    /// Removes every filter and the search.
+    pub fn clear_filters(&mut self) {
+        self.filters.clear();
+        self.search.clear();
+        self.uid_matches.clear();
+        self.recompute();
+    }
+
+    /// Sorts by the next column (first press: species).
+    pub fn next_sort(&mut self) {
+        self.sort = Some(match self.sort {
+            None => (SortKey::Species, false),
+            Some((key, _)) => (key.next(), false),
+        });
+        self.recompute();
+    }
+
+    /// Reverses the sort order.
+    pub fn reverse_sort(&mut self) {
+        let (key, descending) = self.sort.unwrap_or((SortKey::Id, false));
+        self.sort = Some((key, !descending));
+        self.recompute();
+    }
+
+    /// Sets the sort explicitly.
+    pub fn set_sort(&mut self, key: SortKey, descending: bool) {
+        self.sort = Some((key, descending));
+        self.recompute();
+    }
+
+    fn matches(&self, entry: &RosterEntry, species_hit: &[bool], street_hit: &[bool]) -> bool {
+        let filters_pass = self.filters.iter().all(|f| match f {
+            Filter::Species(s) => entry.species == *s,
+            Filter::Street(s) => entry.street == *s,
+            Filter::Zone(z) => entry.zone == *z,
+            Filter::Band(b) => band_of(entry) == Some(*b),
+            Filter::RiskAtLeast(r) => entry.risk >= *r,
+            Filter::OpenWork => entry.open_work,
+            Filter::Status(s) => entry.status == *s,
+            Filter::Ids(ids, _) => ids.contains(&entry.id),
+        });
+        if !filters_pass {
+            return false;
+        }
+        if self.search.is_empty() {
+            return true;
+        }
+        let hit = |table: &[bool], index: u32| {
+            index != NONE && table.get(index as usize).copied().unwrap_or(false)
+        };
+        hit(species_hit, entry.species)
+            || hit(street_hit, entry.street)
+            || self.uid_matches.contains(&entry.id)
+    }
+
+    fn recompute(&mut self) {
+        let needle = self.search.to_lowercase();
+        let species_hit: Vec<bool> = self
+            .data
+            .species
+            .iter()
+            .map(|(_, botanical, common)| {
+                !needle.is_empty()
+                    && (botanical.to_lowercase().contains(&needle)
+                        || common.to_lowercase().contains(&needle))
+            })
+            .collect();
+        let street_hit: Vec<bool> = self
+            .data
+            .streets
+            .iter()
+            .map(|s| !needle.is_empty() && s.to_lowercase().contains(&needle))
+            .collect();
+        let mut order: Vec<u32> = self
+            .data
+            .entries
+            .iter()
+            .enumerate()
+            .filter(|(_, e)| self.matches(e, &species_hit, &street_hit))
+            .map(|(i, _)| i as u32)
+            .collect();
+        if let Some((key, descending)) = self.sort {
+            let entries = &self.data.entries;
+            let name_rank = |index: u32| index; // lists are sorted by name, so the index is the rank
+            order.sort_by(|a, b| {
+                let (x, y) = (&entries[*a as usize], &entries[*b as usize]);
+                let ordering = match key {
+                    SortKey::Id => x.id.cmp(&y.id),
+                    SortKey::Species => name_rank(x.species).cmp(&name_rank(y.species)),
+                    SortKey::Street => (x.street, x.house_number).cmp(&(y.street, y.house_number)),
+                    SortKey::Dbh => x.dbh_cm.total_cmp(&y.dbh_cm),
+                    SortKey::Condition => x.dieback_pct.total_cmp(&y.dieback_pct),
+                    SortKey::Risk => x.risk.cmp(&y.risk),
+                    SortKey::Status => x.status.cmp(&y.status),
+                    SortKey::Zone => x.zone.cmp(&y.zone),
+                };
+                let ordering = if descending {
+                    ordering.reverse()
+                } else {
+                    ordering
+                };
+                ordering.then(x.id.cmp(&y.id))
+            });
+        }
+        self.order = order;
+        self.selected = self.selected.min(self.order.len().saturating_sub(1));
+        self.keep_selection_visible();
     }
 
     /// Sets how many table rows fit on screen.
@@ -74,7 +310,7 @@ impl State {
 
     /// Moves the selection.
     pub fn apply(&mut self, movement: Move) {
-        let last = self.ids.len().saturating_sub(1);
+        let last = self.order.len().saturating_sub(1);
         self.selected = match movement {
             Move::Up => self.selected.saturating_sub(1),
             Move::Down => (self.selected + 1).min(last),
@@ -92,19 +328,79 @@ impl State {
         } else if self.selected >= self.offset + self.height {
             self.offset = self.selected + 1 - self.height;
         }
+        let max_offset = self.order.len().saturating_sub(self.height);
+        self.offset = self.offset.min(max_offset);
     }
 
-    /// Fetches the visible window of rows.
+    /// Fetches the visible window of rows (and nothing else).
     pub fn refresh(&mut self, query: &Query<'_>) -> Result<(), StoreError> {
-        self.rows = match self.ids.get(self.offset) {
-            Some(first) => query.roster_rows_from(*first, self.height)?,
-            None => Vec::new(),
-        };
+        let ids: Vec<i64> = self
+            .order
+            .iter()
+            .skip(self.offset)
+            .take(self.height)
+            .map(|p| self.data.entries[*p as usize].id)
+            .collect();
+        self.rows = query.roster_rows(&ids)?;
         Ok(())
+    }
+
+    /// Describes the active filters, search and sort for the status line.
+    pub fn describe(&self) -> String {
+        let mut parts: Vec<String> = self.filters.iter().map(|f| self.filter_label(f)).collect();
+        if !self.search.is_empty() {
+            parts.push(format!("search \"{}\"", self.search));
+        }
+        let mut text = if parts.is_empty() {
+            String::new()
+        } else {
+            format!(" · {}", parts.join(", "))
+        };
+        if let Some((key, descending)) = self.sort {
+            text.push_str(&format!(
+                " · sorted by {}{}",
+                key.label(),
+                if descending { " (descending)" } else { "" }
+            ));
+        }
+        text
+    }
+
+    /// A filter in words.
+    pub fn filter_label(&self, filter: &Filter) -> String {
+        let name = |list: &[String], i: u32| list.get(i as usize).cloned().unwrap_or_default();
+        match filter {
+            Filter::Species(s) => format!(
+                "species {}",
+                self.data
+                    .species
+                    .get(*s as usize)
+                    .map(|x| x.1.clone())
+                    .unwrap_or_default()
+            ),
+            Filter::Street(s) => format!("street {}", name(&self.data.streets, *s)),
+            Filter::Zone(z) => format!("zone {}", name(&self.data.zones, *z)),
+            Filter::Band(b) => format!("condition {}", b.as_str()),
+            Filter::RiskAtLeast(r) => format!("risk ≥ {}", risk_word(*r)),
+            Filter::OpenWork => "has open work".to_string(),
+            Filter::Status(s) => format!("status {s}"),
+            Filter::Ids(ids, label) => format!("{label} ({} trees)", ids.len()),
+        }
     }
 }
 
-/// The roster's keys.
+/// The word of a risk level (1 low … 4 extreme).
+pub fn risk_word(level: u8) -> &'static str {
+    match level {
+        1 => "low",
+        2 => "moderate",
+        3 => "high",
+        4 => "extreme",
+        _ => "none",
+    }
+}
+
+/// The roster's movement keys.
 pub fn handle_key(key: KeyEvent) -> Option<Move> {
     match key.code {
         KeyCode::Up | KeyCode::Char('k') => Some(Move::Up),
@@ -117,31 +413,44 @@ pub fn handle_key(key: KeyEvent) -> Option<Move> {
     }
 }
 
-/// The status line: counts and position.
+/// The status line: counts, position, filters and sort.
 pub fn status_line(state: &State) -> Line<'static> {
+    let total = state.data.entries.len();
+    if total == 0 {
+        return Line::from(
+            " no trees yet: press n to add one, or import with `streetwood import trees FILE`",
+        );
+    }
     if state.is_empty() {
-        return Line::from(" no trees yet: import some with `streetwood import trees FILE`");
+        return Line::from(format!(
+            " no tree of {total} matches{} · F clears filters",
+            state.describe()
+        ));
     }
     Line::from(format!(
-        " tree {} of {} · rows {}–{}",
+        " tree {} of {}{}{}",
         state.selected + 1,
         state.len(),
-        state.offset + 1,
-        (state.offset + state.rows.len()).max(state.offset + 1)
+        if state.len() < total {
+            format!(" (of {total})")
+        } else {
+            String::new()
+        },
+        state.describe()
     ))
 }
 
-/// Draws the table.
+/// Draws the table (narrow terminals drop the common name column).
 pub fn render(state: &State, settings: AppSettings, frame: &mut Frame<'_>, area: Rect) {
+    let wide = area.width >= 100;
     let dbh_header = if settings.us_units {
         "DBH in"
     } else {
         "DBH cm"
     };
-    let header = Row::new([
+    let mut titles = vec![
         "",
         "id",
-        "uid",
         "species",
         "common name",
         "street",
@@ -150,8 +459,25 @@ pub fn render(state: &State, settings: AppSettings, frame: &mut Frame<'_>, area:
         "condition",
         "status",
         "zone",
-    ])
-    .style(Style::new().add_modifier(Modifier::BOLD | Modifier::UNDERLINED));
+    ];
+    let mut widths = vec![
+        Constraint::Length(1),
+        Constraint::Length(6),
+        Constraint::Fill(3),
+        Constraint::Fill(2),
+        Constraint::Fill(2),
+        Constraint::Length(4),
+        Constraint::Length(6),
+        Constraint::Length(9),
+        Constraint::Length(8),
+        Constraint::Fill(1),
+    ];
+    if !wide {
+        titles.remove(3);
+        widths.remove(3);
+    }
+    let header =
+        Row::new(titles).style(Style::new().add_modifier(Modifier::BOLD | Modifier::UNDERLINED));
     let rows = state.rows.iter().enumerate().map(|(i, tree)| {
         let dbh = tree.dbh_cm.map(|d| {
             if settings.us_units {
@@ -165,11 +491,10 @@ pub fn render(state: &State, settings: AppSettings, frame: &mut Frame<'_>, area:
             .map(|p| ConditionBand::from_dieback(p).as_str())
             .unwrap_or("");
         let selected = state.offset + i == state.selected;
-        let row = Row::new([
+        let mut cells = vec![
             // The selection is marked by a sign as well as by reversed video (never by colour alone).
             Cell::from(if selected { "▶" } else { "" }),
             Cell::from(tree.id.to_string()),
-            Cell::from(tree.uid.chars().take(8).collect::<String>()),
             Cell::from(tree.species.clone()),
             Cell::from(tree.common_name.clone()),
             Cell::from(tree.street.clone().unwrap_or_default()),
@@ -178,26 +503,17 @@ pub fn render(state: &State, settings: AppSettings, frame: &mut Frame<'_>, area:
             Cell::from(band),
             Cell::from(tree.status.as_str()),
             Cell::from(tree.zone.clone().unwrap_or_default()),
-        ]);
+        ];
+        if !wide {
+            cells.remove(3);
+        }
+        let row = Row::new(cells);
         if selected {
             row.style(Style::new().add_modifier(Modifier::REVERSED))
         } else {
             row
         }
     });
-    let widths = [
-        Constraint::Length(1),
-        Constraint::Length(7),
-        Constraint::Length(8),
-        Constraint::Fill(3),
-        Constraint::Fill(2),
-        Constraint::Fill(2),
-        Constraint::Length(5),
-        Constraint::Length(7),
-        Constraint::Length(10),
-        Constraint::Length(8),
-        Constraint::Length(15),
-    ];
     frame.render_widget(
         Table::new(rows, widths)
             .header(header)
