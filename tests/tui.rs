@@ -28,7 +28,7 @@ fn now() -> chrono::DateTime<Utc> {
         .expect("time")
 }
 
-fn screen(app: &mut App, query: &Query<'_>, width: u16, height: u16) -> String {
+fn screen(app: &mut App, query: &mut Query<'_>, width: u16, height: u16) -> String {
     let mut terminal = Terminal::new(TestBackend::new(width, height)).expect("terminal");
     app.set_viewport(height);
     app.refresh(query).expect("refresh");
@@ -69,19 +69,19 @@ fn views_at_100x30_and_80x24() {
     let mut store = demo_store();
     let mut query = Query::new(&mut store);
     let mut app = App::new(&query, AppSettings::default(), today()).expect("app");
-    insta::assert_snapshot!("roster_100x30", screen(&mut app, &query, 100, 30));
-    insta::assert_snapshot!("roster_80x24", screen(&mut app, &query, 80, 24));
+    insta::assert_snapshot!("roster_100x30", screen(&mut app, &mut query, 100, 30));
+    insta::assert_snapshot!("roster_80x24", screen(&mut app, &mut query, 80, 24));
     key(&mut app, &mut query, KeyCode::Enter);
     assert_eq!(app.view, View::Card);
-    insta::assert_snapshot!("card_100x30", screen(&mut app, &query, 100, 30));
-    insta::assert_snapshot!("card_80x24", screen(&mut app, &query, 80, 24));
+    insta::assert_snapshot!("card_100x30", screen(&mut app, &mut query, 100, 30));
+    insta::assert_snapshot!("card_80x24", screen(&mut app, &mut query, 80, 24));
     keys(&mut app, &mut query, "3");
-    insta::assert_snapshot!("field_log_80x24", screen(&mut app, &query, 80, 24));
+    insta::assert_snapshot!("field_log_80x24", screen(&mut app, &mut query, 80, 24));
     key(&mut app, &mut query, KeyCode::Esc);
     keys(&mut app, &mut query, "4");
-    insta::assert_snapshot!("plan_100x30", screen(&mut app, &query, 100, 30));
+    insta::assert_snapshot!("plan_100x30", screen(&mut app, &mut query, 100, 30));
     keys(&mut app, &mut query, "?");
-    insta::assert_snapshot!("plan_help_80x24", screen(&mut app, &query, 80, 24));
+    insta::assert_snapshot!("plan_help_80x24", screen(&mut app, &mut query, 80, 24));
 }
 
 #[test]
@@ -89,7 +89,7 @@ fn roster_scrolls_virtually_searches_filters_and_sorts() {
     let mut store = demo_store();
     let mut query = Query::new(&mut store);
     let mut app = App::new(&query, AppSettings::default(), today()).expect("app");
-    let first = screen(&mut app, &query, 120, 30);
+    let first = screen(&mut app, &mut query, 120, 30);
     assert!(first.contains("tree 1 of 2497"), "{first}");
     assert_eq!(
         app.roster.visible_rows().len(),
@@ -97,12 +97,12 @@ fn roster_scrolls_virtually_searches_filters_and_sorts() {
         "only the visible rows are fetched"
     );
     keys(&mut app, &mut query, "G");
-    let last = screen(&mut app, &query, 120, 30);
+    let last = screen(&mut app, &mut query, 120, 30);
     assert!(last.contains("tree 2497 of 2497"), "{last}");
 
     // Incremental search on species and street.
     keys(&mut app, &mut query, "/linden");
-    let searched = screen(&mut app, &query, 120, 30);
+    let searched = screen(&mut app, &mut query, 120, 30);
     assert!(searched.contains("search \"linden\""), "{searched}");
     assert!(app.roster.len() > 100 && app.roster.len() < 2497);
     assert!(
@@ -120,7 +120,7 @@ fn roster_scrolls_virtually_searches_filters_and_sorts() {
     key(&mut app, &mut query, KeyCode::Enter);
     keys(&mut app, &mut query, "Foundry");
     key(&mut app, &mut query, KeyCode::Enter);
-    let filtered = screen(&mut app, &query, 120, 30);
+    let filtered = screen(&mut app, &mut query, 120, 30);
     assert!(filtered.contains("street Foundry Street"), "{filtered}");
     assert!(
         app.roster
@@ -132,7 +132,7 @@ fn roster_scrolls_virtually_searches_filters_and_sorts() {
         keys(&mut app, &mut query, "s");
     }
     keys(&mut app, &mut query, "r");
-    let sorted = screen(&mut app, &query, 120, 30);
+    let sorted = screen(&mut app, &mut query, 120, 30);
     assert!(sorted.contains("sorted by DBH (descending)"), "{sorted}");
     let dbhs: Vec<f64> = app
         .roster
@@ -159,7 +159,7 @@ fn adding_a_tree_saves_it_with_an_audit_row_and_bad_dbh_is_refused_with_the_reas
             key(&mut app, &mut query, KeyCode::Tab);
         }
         keys(&mut app, &mut query, "4000");
-        let text = screen(&mut app, &query, 100, 30);
+        let text = screen(&mut app, &mut query, 100, 30);
         assert!(
             text.contains("4000 cm is not plausible"),
             "the reason is shown as typed:\n{text}"
@@ -211,7 +211,7 @@ fn remeasure_and_mark_removed_from_the_card() {
         key(&mut app, &mut query, KeyCode::Enter);
         keys(&mut app, &mut query, "m");
         assert_eq!(app.view, View::FieldLog);
-        let text = screen(&mut app, &query, 100, 30);
+        let text = screen(&mut app, &mut query, 100, 30);
         assert!(text.contains("re-measure tree 1"), "{text}");
         assert!(
             text.contains("was 49.2 cm"),
@@ -248,7 +248,7 @@ fn quitting_with_unsaved_entries_asks_first() {
     keys(&mut app, &mut query, "Acer");
     ctrl(&mut app, &mut query, 'q');
     assert!(!app.should_quit());
-    let text = screen(&mut app, &query, 80, 24);
+    let text = screen(&mut app, &mut query, 80, 24);
     assert!(text.contains("unsaved entries"), "{text}");
     keys(&mut app, &mut query, "y");
     assert!(app.should_quit());
@@ -273,7 +273,7 @@ fn plan_area_selection_filters_the_roster() {
             .is_some_and(|m| m.contains(&format!("the {n} trees of the area")))
     );
     keys(&mut app, &mut query, "j");
-    let text = screen(&mut app, &query, 120, 30);
+    let text = screen(&mut app, &mut query, 120, 30);
     assert!(text.contains("area from the plan view"), "{text}");
 }
 
@@ -290,7 +290,7 @@ fn us_units_show_dbh_in_inches() {
         today(),
     )
     .expect("app");
-    let text = screen(&mut app, &query, 120, 12);
+    let text = screen(&mut app, &mut query, 120, 12);
     assert!(text.contains("DBH in"), "{text}");
     let first = app
         .roster
@@ -301,16 +301,16 @@ fn us_units_show_dbh_in_inches() {
     // 1 in = 2.54 cm (NIST SP 811): the shown value is the stored cm divided by 2.54.
     assert!(text.contains(&format!("{:.1}", first / 2.54)), "{text}");
     keys(&mut app, &mut query, "U");
-    let metric = screen(&mut app, &query, 120, 12);
+    let metric = screen(&mut app, &mut query, 120, 12);
     assert!(metric.contains("DBH cm"), "{metric}");
 }
 
 #[test]
 fn empty_inventory_says_how_to_start() {
     let mut store = Store::open_in_memory().expect("store");
-    let query = Query::new(&mut store);
+    let mut query = Query::new(&mut store);
     let mut app = App::new(&query, AppSettings::default(), today()).expect("app");
-    let text = screen(&mut app, &query, 100, 10);
+    let text = screen(&mut app, &mut query, 100, 10);
     assert!(text.contains("no trees yet"), "{text}");
 }
 
@@ -365,4 +365,29 @@ fn binary_adds_a_tree_by_keystrokes_in_a_terminal() {
     let history = audit::entries_for_row(store.conn(), "trees", id).expect("audit");
     assert_eq!(history.len(), 1);
     assert_eq!(history[0].action, "insert");
+}
+
+/// On a file, the year's benefits are computed on another thread; the card says so until they come.
+#[test]
+fn card_benefits_arrive_from_the_background() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    let path = dir.path().join("demo.db");
+    let output = common::run(dir.path(), &["demo", "--out", path.to_str().expect("path")]);
+    assert!(output.status.success());
+    let mut store = Store::open_existing(&path).expect("open");
+    let mut query = Query::new(&mut store);
+    let mut app = App::new(&query, AppSettings::default(), today()).expect("app");
+    query.start_benefits();
+    key(&mut app, &mut query, KeyCode::Enter);
+    let mut text = screen(&mut app, &mut query, 100, 40);
+    for _ in 0..200 {
+        if !query.busy() {
+            break;
+        }
+        std::thread::sleep(std::time::Duration::from_millis(50));
+        text = screen(&mut app, &mut query, 100, 40);
+    }
+    assert!(!query.busy(), "the computation finished");
+    text = screen(&mut app, &mut query, 100, 40);
+    assert!(text.contains("carbon stored 706.5 kg C"), "{text}");
 }

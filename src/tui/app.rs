@@ -143,6 +143,8 @@ pub struct App {
     pub settings: AppSettings,
     pub file_label: String,
     pub message: Option<String>,
+    /// Background work is running (shown in the tab bar).
+    pub busy: bool,
     popup: Option<Popup>,
     /// Where the field log returns to.
     form_return: View,
@@ -209,6 +211,7 @@ impl App {
             settings,
             file_label: query.file_label(),
             message: None,
+            busy: false,
             popup: None,
             form_return: View::Roster,
             quit: false,
@@ -736,8 +739,15 @@ impl App {
             .set_height(terminal_height.saturating_sub(6) as usize);
     }
 
-    /// Fetches what the visible view shows (the roster: only its visible rows).
-    pub fn refresh(&mut self, query: &Query<'_>) -> Result<(), StoreError> {
+    /// Fetches what the visible view shows (the roster: only its visible rows), and takes in the
+    /// results of background work.
+    pub fn refresh(&mut self, query: &mut Query<'_>) -> Result<(), StoreError> {
+        if query.poll_background()
+            && let Some(card) = &mut self.card
+        {
+            card.benefits = query.tree_benefits(card.detail.summary.id);
+        }
+        self.busy = query.busy();
         self.roster.refresh(query)
     }
 

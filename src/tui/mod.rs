@@ -21,6 +21,8 @@ pub fn run(store: &mut Store, settings: app::AppSettings) -> anyhow::Result<()> 
     let mut query = Query::new(store);
     let today = chrono::Local::now().date_naive();
     let mut app = App::new(&query, settings, today)?;
+    // The tree card's benefits need the whole inventory: start on them at once, off the UI thread.
+    query.start_benefits();
     let mut terminal = ratatui::init();
     let result = event_loop(&mut terminal, &mut app, &mut query);
     ratatui::restore();
@@ -39,7 +41,8 @@ fn event_loop(
             app.message = Some(format!("error: {error}"));
         }
         terminal.draw(|frame| app.render(frame))?;
-        if !event::poll(Duration::from_millis(500))? {
+        let wait = if query.busy() { 100 } else { 500 };
+        if !event::poll(Duration::from_millis(wait))? {
             continue;
         }
         if let Event::Key(key) = event::read()?

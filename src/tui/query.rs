@@ -1,6 +1,9 @@
 //! The facade between the TUI and the store: everything views read, as domain structs, and the few
 //! writes the field work needs. No SQL here; `tui/` never reaches the store any other way.
 
+use std::path::PathBuf;
+use std::sync::mpsc::{Receiver, TryRecvError, channel};
+
 use chrono::{DateTime, NaiveDate, Utc};
 
 use crate::model::{Species, TreeRecord, TreeSummary};
@@ -24,7 +27,12 @@ pub struct Query<'a> {
     /// Benefits of every standing tree for the latest weather year, computed on first use and dropped
     /// after every write (or the reason they cannot be computed).
     benefits: Option<Result<YearCache, String>>,
+    /// The year's benefits being computed on another thread (over its own read connection).
+    pending: Option<Receiver<Result<YearCache, String>>>,
 }
+
+/// Shown while the year's benefits are being computed.
+pub const COMPUTING: &str = "computing this year's benefits for the whole inventory…";
 
 /// The year's rows, the line stating year and prices, and the currency.
 type YearCache = (Vec<BenefitRow>, String, String);
@@ -35,7 +43,56 @@ impl<'a> Query<'a> {
         Query {
             store,
             benefits: None,
+            pending: None,
         }
+    }
+
+    /// Starts computing the year's benefits off the UI thread (a file-backed inventory opens a second,
+    /// read-only connection; WAL lets it read while the UI writes). In memory it computes at once.
+    pub fn start_benefits(&mut self) {
+        if self.benefits.is_some() || self.pending.is_some() {
+            return;
+        }
+        let Some(path) = self.store.path().map(PathBuf::from) else {
+            self.benefits = Some(compute(self.store));
+            return;
+        };
+        let (sender, receiver) = channel();
+        std::thread::spawn(move || {
+            let result = Store::open_existing(&path)
+                .map_err(|e| e.to_string())
+                .and_then(|store| compute(&store));
+            // The UI may have gone; nothing to do then.
+            let _ = sender.send(result);
+        });
+        self.pending = Some(receiver);
+    }
+
+    /// True when background work finished since the last call (the app then refreshes what shows it).
+    pub fn poll_background(&mut self) -> bool {
+        let Some(receiver) = &self.pending else {
+            return false;
+        };
+        match receiver.try_recv() {
+            Ok(result) => {
+                self.benefits = Some(result);
+                self.pending = None;
+                true
+            }
+            Err(TryRecvError::Empty) => false,
+            Err(TryRecvError::Disconnected) => {
+                self.benefits = Some(Err(
+                    "the benefit computation stopped unexpectedly".to_string()
+                ));
+                self.pending = None;
+                true
+            }
+        }
+    }
+
+    /// True while background work runs.
+    pub fn busy(&self) -> bool {
+        self.pending.is_some()
     }
 
     /// The compact index of every tree.
@@ -68,26 +125,9 @@ impl<'a> Query<'a> {
         self.store.tree_positions()
     }
 
-    /// This year's benefits of one tree (computing the whole inventory once, then cached).
+    /// This year's benefits of one tree, once computed (see [`Query::start_benefits`]).
     pub fn tree_benefits(&mut self, tree_id: i64) -> Result<CardBenefits, String> {
-        if self.benefits.is_none() {
-            self.benefits = Some(
-                self.store
-                    .year_benefits(None)
-                    .map(|run| {
-                        let basis = format!(
-                            "{} weather at '{}'; {} {:.0}/t CO2e, {:.2}/m³ water",
-                            run.year,
-                            run.station.name,
-                            run.prices.currency,
-                            run.prices.co2_per_t,
-                            run.prices.water_per_m3
-                        );
-                        (run.rows, basis, run.prices.currency)
-                    })
-                    .map_err(|e| e.to_string()),
-            );
-        }
+        self.start_benefits();
         match &self.benefits {
             Some(Ok((rows, basis, currency))) => rows
                 .iter()
@@ -102,7 +142,7 @@ impl<'a> Query<'a> {
                         .to_string()
                 }),
             Some(Err(e)) => Err(e.clone()),
-            None => Err("benefits not computed".to_string()),
+            None => Err(COMPUTING.to_string()),
         }
     }
 
@@ -138,7 +178,7 @@ impl<'a> Query<'a> {
             now,
             false,
         )?;
-        self.benefits = None;
+        self.forget_benefits();
         self.store
             .tree_id_by_uid(&uid)?
             .ok_or_else(|| StoreError::Invalid("the saved tree cannot be found".to_string()))
@@ -153,8 +193,14 @@ impl<'a> Query<'a> {
         actor: &str,
         now: DateTime<Utc>,
     ) -> Result<(), StoreError> {
-        self.benefits = None;
+        self.forget_benefits();
         self.store.mark_removed(tree_id, on, reason, actor, now)
+    }
+
+    /// Drops computed benefits after a write (a running computation's result is ignored).
+    fn forget_benefits(&mut self) {
+        self.benefits = None;
+        self.pending = None;
     }
 
     /// A short name for the open file.
@@ -164,4 +210,17 @@ impl<'a> Query<'a> {
             .map(|p| p.display().to_string())
             .unwrap_or_else(|| "(in memory)".to_string())
     }
+}
+
+fn compute(store: &Store) -> Result<YearCache, String> {
+    let run = store.year_benefits(None).map_err(|e| e.to_string())?;
+    let basis = format!(
+        "{} weather at '{}'; {} {:.0}/t CO2e, {:.2}/m³ water",
+        run.year,
+        run.station.name,
+        run.prices.currency,
+        run.prices.co2_per_t,
+        run.prices.water_per_m3
+    );
+    Ok((run.rows, basis, run.prices.currency))
 }
