@@ -98,9 +98,10 @@ pub fn solar_from_temperature(krs: f64, tmax_c: f64, tmin_c: f64, ra: f64) -> f6
 }
 
 /// Net longwave radiation Rnl (MJ m⁻² d⁻¹) = σ ((Tmax,K⁴ + Tmin,K⁴)/2)(0.34 − 0.14 √ea)
-/// (1.35 Rs/Rso − 0.35) (FAO-56 eq. 39). Rs/Rso is limited to ≤ 1.0 (FAO-56) and, as a guard for dark
-/// days and polar night (Rso = 0), to ≥ 0.3 (ASCE-EWRI 2005 standardized equation, fcd ≥ 0.05)
-/// [from memory].
+/// (1.35 Rs/Rso − 0.35) (FAO-56 eq. 39). Rs/Rso is limited to ≤ 1.0 (FAO-56) and to ≥ 0.3, the lower
+/// bound of the cloudiness factor in the ASCE-EWRI 2005 standardized equation (fcd ≥ 0.05) [from
+/// memory]. With Rso = 0 (polar night) the ratio is taken as 0.3: our own choice [derived], the same as
+/// the `pyet` library's; `refet` takes 1.0 there (tests/reference/README.md).
 pub fn net_longwave(tmax_c: f64, tmin_c: f64, ea_kpa: f64, rs: f64, rso: f64) -> f64 {
     let ratio = if rso > 0.0 { rs / rso } else { 0.3 };
     let ratio = ratio.clamp(0.3, 1.0);
