@@ -30,16 +30,29 @@ fn inventory(trees: usize) -> PathBuf {
     let started = Instant::now();
     let mut rows = Vec::new();
     generate(&GenOptions { trees, seed: 1 }, |record| {
-        rows.push(TreeImportRow { line: rows.len() as u64 + 2, record: record.clone(), zone_id: None });
+        rows.push(TreeImportRow {
+            line: rows.len() as u64 + 2,
+            record: record.clone(),
+            zone_id: None,
+        });
         Ok(())
     })
     .expect("generate");
     let mut store = Store::open_or_create(&partial).expect("create");
-    let now = Utc.with_ymd_and_hms(2026, 1, 1, 0, 0, 0).single().expect("time");
-    store.import_trees(&rows, "bench", now, false).expect("import");
+    let now = Utc
+        .with_ymd_and_hms(2026, 1, 1, 0, 0, 0)
+        .single()
+        .expect("time");
+    store
+        .import_trees(&rows, "bench", now, false)
+        .expect("import");
     drop(store);
     std::fs::rename(&partial, &path).expect("rename");
-    eprintln!("generated {trees} trees into {} in {:.1?}", path.display(), started.elapsed());
+    eprintln!(
+        "generated {trees} trees into {} in {:.1?}",
+        path.display(),
+        started.elapsed()
+    );
     path
 }
 
@@ -49,7 +62,10 @@ fn percentile(sorted: &[Duration], p: f64) -> Duration {
 }
 
 fn main() {
-    let trees: usize = std::env::var("STREETWOOD_BENCH_TREES").ok().and_then(|v| v.parse().ok()).unwrap_or(1_000_000);
+    let trees: usize = std::env::var("STREETWOOD_BENCH_TREES")
+        .ok()
+        .and_then(|v| v.parse().ok())
+        .unwrap_or(1_000_000);
     let path = inventory(trees);
     let mut store = Store::open_existing(&path).expect("open");
     let opened = Instant::now();
@@ -61,7 +77,10 @@ fn main() {
     app.refresh(&mut query).expect("refresh");
     terminal.draw(|f| app.render(f)).expect("draw");
     let first_frame = opened.elapsed();
-    let now = Utc.with_ymd_and_hms(2026, 1, 1, 0, 0, 0).single().expect("time");
+    let now = Utc
+        .with_ymd_and_hms(2026, 1, 1, 0, 0, 0)
+        .single()
+        .expect("time");
 
     let mut press = |app: &mut App, query: &mut Query<'_>, code: KeyCode| -> Duration {
         let start = Instant::now();
@@ -119,8 +138,14 @@ fn main() {
     results.push(("search (/ and typing, per key)", search));
 
     println!("TUI per keystroke on {trees} trees (handle key + fetch visible rows + draw 100×30)");
-    println!("open to first frame: {:.1} ms (target < 300 ms)", first_frame.as_secs_f64() * 1e3);
-    println!("{:<36} {:>6} {:>9} {:>9} {:>9}", "keys", "n", "p50 ms", "p99 ms", "max ms");
+    println!(
+        "open to first frame: {:.1} ms (target < 300 ms)",
+        first_frame.as_secs_f64() * 1e3
+    );
+    println!(
+        "{:<36} {:>6} {:>9} {:>9} {:>9}",
+        "keys", "n", "p50 ms", "p99 ms", "max ms"
+    );
     for (name, mut times) in results {
         times.sort();
         println!(

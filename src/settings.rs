@@ -15,6 +15,8 @@ pub fn default_pairs() -> Vec<(&'static str, String)> {
             crate::care::risk::default_reinspection_months(*rating).to_string(),
         ));
     }
+    // Maintenance cycle lengths (METHODS.md M10): `care cycle` reads them.
+    pairs.extend(crate::care::cycles::default_setting_pairs());
     pairs.extend(science_pairs());
     pairs
 }
@@ -46,6 +48,9 @@ pub fn validate(key: &str, value: &str) -> Result<(), String> {
             .parse::<u32>()
             .map(|_| ())
             .map_err(|_| format!("{key} = '{value}': must be a whole number of months"));
+    }
+    if key.starts_with("cycle_") {
+        return crate::care::cycles::validate_setting(key, value).map_err(|e| e.to_string());
     }
     if key == "units" && !matches!(value, "metric" | "us") {
         return Err(format!("units = '{value}': must be metric or us"));

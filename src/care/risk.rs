@@ -3,15 +3,13 @@
 //!
 //! Ratings support, and never replace, a qualified arborist's judgment; local rules govern.
 
-use serde::{Deserialize, Serialize};
-
 /// The caution carried by every risk screen and export.
 pub const CAUTION: &str = "Risk ratings and estimates support, and never replace, the judgment of a qualified arborist; local codes and licensed practice govern.";
 
 macro_rules! ordered_words {
     ($(#[$meta:meta])* $name:ident { $($variant:ident => $word:literal),+ $(,)? }) => {
         $(#[$meta])*
-        #[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash, Serialize, Deserialize)]
+        #[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash, ::serde::Serialize, ::serde::Deserialize)]
         #[serde(rename_all = "snake_case")]
         pub enum $name { $($variant),+ }
         impl $name {
@@ -33,6 +31,7 @@ macro_rules! ordered_words {
         }
     };
 }
+pub(crate) use ordered_words;
 
 ordered_words!(
     /// Likelihood of failure.

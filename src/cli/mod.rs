@@ -4,9 +4,12 @@
 
 pub mod admin;
 pub mod benefits;
+pub mod care;
 pub mod demo;
 pub mod export;
 pub mod import;
+pub mod synthetic;
+pub mod work;
 
 use std::io::Write;
 use std::path::{Path, PathBuf};
@@ -104,6 +107,27 @@ pub enum Command {
     /// Show or change settings (prices, methods, re-inspection intervals, units).
     #[command(subcommand)]
     Settings(admin::SettingsCommand),
+    /// Risk assessments, the watchlist and maintenance-cycle work.
+    #[command(subcommand)]
+    Care(care::CareCommand),
+    /// Work orders and the work queue.
+    #[command(subcommand)]
+    Work(work::WorkCommand),
+    /// Write a seeded synthetic inventory (invented trees on a grid of streets) for tests and benchmarks.
+    Gen {
+        /// Number of trees.
+        #[arg(long)]
+        trees: usize,
+        /// Random seed (the same seed gives the same file).
+        #[arg(long, default_value_t = 1)]
+        seed: u64,
+        /// The trees CSV to write (default: standard output).
+        #[arg(long, value_name = "FILE")]
+        out: Option<PathBuf>,
+        /// Also write a year of daily weather (the demo's invented year) to this CSV.
+        #[arg(long, value_name = "FILE")]
+        weather_out: Option<PathBuf>,
+    },
     /// List the species list (botanical and common names, groups, growth rates).
     Species {
         /// Output format.
@@ -166,6 +190,19 @@ pub fn run(
         Command::Import(what) => import::run(&inventory_path(cli)?, what, now),
         Command::Export(what) => export::run(&inventory_path(cli)?, what),
         Command::Backup { file, force } => admin::backup(&inventory_path(cli)?, file, *force),
+        Command::Gen {
+            trees,
+            seed,
+            out,
+            weather_out,
+        } => synthetic::run(
+            &synthetic::GenOptions {
+                trees: *trees,
+                seed: *seed,
+            },
+            out.as_deref(),
+            weather_out.as_deref(),
+        ),
         Command::Species { format } => admin::species(&inventory_path(cli)?, *format),
         Command::Benefits { year, format, out } => {
             benefits::benefits(&inventory_path(cli)?, *year, *format, out.as_ref())
@@ -178,6 +215,8 @@ pub fn run(
         } => benefits::summary(&inventory_path(cli)?, *year, *by, *format, out.as_ref()),
         Command::Explain { tree, year } => benefits::explain(&inventory_path(cli)?, tree, *year),
         Command::Settings(command) => admin::settings(&inventory_path(cli)?, command),
+        Command::Care(command) => care::run(&inventory_path(cli)?, command, now),
+        Command::Work(command) => work::run(&inventory_path(cli)?, command, now),
     }
 }
 

@@ -92,7 +92,7 @@ pub fn generate(
     for i in 0..options.trees {
         let street_index = i / per_street;
         let along = (i % per_street) as f64;
-        let east_west = street_index % 2 == 0;
+        let east_west = street_index.is_multiple_of(2);
         let street = if east_west {
             format!("{} Street", street_index / 2 + 1)
         } else {

@@ -17,6 +17,7 @@ pub const AUDITED_TABLES: &[&str] = &[
     "measurements",
     "assessments",
     "failure_modes",
+    "mitigation_options",
     "work_orders",
     "weather_stations",
     "weather_days",
