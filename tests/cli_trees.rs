@@ -362,3 +362,61 @@ fn without_db_the_demo_is_created_in_the_data_directory() {
     let second = run(dir.path(), &["export", "trees"]);
     assert!(!stderr(&second).contains("first run"));
 }
+
+#[test]
+fn history_lists_every_change_and_undo_reverts_an_import() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    let db = empty_inventory(dir.path());
+    let first = write(
+        dir.path(),
+        "a.csv",
+        &format!("{TREES_HEADER}\nh1,Acer rubrum,,,Elm Row,,,,,2019-06-01,24,,,,,,,,\n"),
+    );
+    let second = write(
+        dir.path(),
+        "b.csv",
+        &format!("{TREES_HEADER}\nh1,Acer rubrum,,,Elm Row,,,,removed,2025-06-01,28.5,,,,,,,,\n"),
+    );
+    assert!(
+        run(dir.path(), &["--db", &db, "import", "trees", &first])
+            .status
+            .success()
+    );
+    assert!(
+        run(dir.path(), &["--db", &db, "import", "trees", &second])
+            .status
+            .success()
+    );
+    let history = stdout(&run(dir.path(), &["--db", &db, "history", "h1"]));
+    assert!(history.contains("insert  trees"), "{history}");
+    assert!(history.contains("update  trees"), "{history}");
+    assert!(history.contains(r#""status":"removed""#), "{history}");
+    assert_eq!(
+        history.matches("insert  measurements").count(),
+        2,
+        "{history}"
+    );
+
+    let listed = stdout(&run(dir.path(), &["--db", &db, "undo", "--list"]));
+    assert_eq!(listed.lines().count(), 2, "{listed}");
+    let output = run(dir.path(), &["--db", &db, "undo"]);
+    assert!(output.status.success(), "{}", stderr(&output));
+    let export = stdout(&run(
+        dir.path(),
+        &["--db", &db, "export", "trees", "--history"],
+    ));
+    assert_eq!(export.lines().count(), 2, "one measurement left:\n{export}");
+    assert!(export.contains(",standing,2019-06-01,24,"), "{export}");
+    let output = run(dir.path(), &["--db", &db, "undo", "5"]);
+    assert!(
+        stderr(&output).contains("nothing more to undo (1 undone)"),
+        "{}",
+        stderr(&output)
+    );
+    assert_eq!(
+        stdout(&run(dir.path(), &["--db", &db, "export", "trees"]))
+            .lines()
+            .count(),
+        1
+    );
+}

@@ -295,3 +295,99 @@ fn backup_copies_a_consistent_file() {
         "backing up onto itself is refused"
     );
 }
+
+#[test]
+fn undo_reverts_the_latest_change_whole_and_is_itself_audited() {
+    let mut store = Store::open_in_memory().expect("store");
+    assert!(
+        store.undoable_changes(5).expect("list").is_empty(),
+        "seeding is not undoable"
+    );
+    let first = vec![TreeImportRow {
+        line: 2,
+        record: tree("t1", "Acer rubrum", 30.0, "2024-05-01"),
+        zone_id: None,
+    }];
+    store
+        .import_trees(&first, "crew-a", now(), false)
+        .expect("import");
+    let second = vec![TreeImportRow {
+        line: 2,
+        record: tree("t2", "Tilia cordata", 20.0, "2024-05-01"),
+        zone_id: None,
+    }];
+    store
+        .import_trees(&second, "crew-b", now(), false)
+        .expect("import");
+    let t1 = store.tree_id_by_uid("t1").expect("q").expect("t1");
+    store
+        .mark_removed(
+            t1,
+            NaiveDate::from_ymd_opt(2026, 5, 30).expect("date"),
+            "storm",
+            "crew-c",
+            now(),
+        )
+        .expect("remove");
+
+    let changes = store.undoable_changes(5).expect("list");
+    assert_eq!(changes.len(), 3);
+    assert_eq!(changes[0].actor, "crew-c");
+    assert!(
+        changes[1]
+            .describe()
+            .contains("insert 1 trees, insert 1 measurements"),
+        "{}",
+        changes[1].describe()
+    );
+
+    // Undo the removal: the tree stands again, exactly as before.
+    let undone = store
+        .undo_last("tester")
+        .expect("undo")
+        .expect("something undone");
+    assert_eq!(undone.actor, "crew-c");
+    let detail = store.tree_detail(t1).expect("q").expect("t1");
+    assert_eq!(detail.summary.status.as_str(), "standing");
+    assert_eq!(detail.removed_on, None);
+    // Undo crew-b's tree: its tree and measurement rows go, the audit log keeps them.
+    store
+        .undo_last("tester")
+        .expect("undo")
+        .expect("something undone");
+    assert_eq!(store.tree_id_by_uid("t2").expect("q"), None);
+    assert_eq!(store.tree_count().expect("count"), 1);
+    assert_eq!(
+        audit::count(store.conn(), "trees", "delete").expect("count"),
+        1
+    );
+    let remaining = store.undoable_changes(5).expect("list");
+    assert_eq!(remaining.len(), 1);
+    assert_eq!(remaining[0].actor, "crew-a");
+    assert_eq!(store.integrity_check().expect("check"), "ok");
+}
+
+#[test]
+fn undo_refuses_when_a_row_changed_behind_its_back() {
+    let mut store = Store::open_in_memory().expect("store");
+    let rows = vec![TreeImportRow {
+        line: 2,
+        record: tree("t1", "Acer rubrum", 30.0, "2024-05-01"),
+        zone_id: None,
+    }];
+    store
+        .import_trees(&rows, "crew-a", now(), false)
+        .expect("import");
+    // A write that bypasses the audit triggers (as a foreign program might).
+    store
+        .conn()
+        .execute_batch("DROP TRIGGER audit_trees_update; UPDATE trees SET street = 'Changed Row';")
+        .expect("raw write");
+    let message = store
+        .undo_last("tester")
+        .err()
+        .map(|e| e.to_string())
+        .unwrap_or_default();
+    assert!(message.contains("was changed again since"), "{message}");
+    assert_eq!(store.tree_count().expect("count"), 1, "nothing was undone");
+}

@@ -390,3 +390,35 @@ fn card_benefits_arrive_from_the_background() {
     let text = screen(&mut app, &mut query, 100, 40);
     assert!(text.contains("carbon stored 706.5 kg C"), "{text}");
 }
+
+#[test]
+fn u_undoes_the_last_saved_tree_after_asking() {
+    let mut store = demo_store();
+    {
+        let mut query = Query::new(&mut store);
+        let mut app = App::new(&query, AppSettings::default(), today()).expect("app");
+        keys(&mut app, &mut query, "n");
+        keys(&mut app, &mut query, "Ginkgo biloba");
+        for _ in 0..7 {
+            key(&mut app, &mut query, KeyCode::Tab);
+        }
+        keys(&mut app, &mut query, "20");
+        ctrl(&mut app, &mut query, 's');
+        key(&mut app, &mut query, KeyCode::Esc);
+        assert_eq!(app.view, View::Roster);
+        assert_eq!(app.roster.data.entries.len(), 2498);
+        keys(&mut app, &mut query, "u");
+        let text = screen(&mut app, &mut query, 100, 30);
+        assert!(text.contains("Undo change"), "{text}");
+        keys(&mut app, &mut query, "y");
+        assert!(
+            app.message
+                .as_deref()
+                .is_some_and(|m| m.starts_with("undone: change")),
+            "{:?}",
+            app.message
+        );
+        assert_eq!(app.roster.data.entries.len(), 2497);
+    }
+    assert_eq!(store.tree_count().expect("count"), 2497);
+}

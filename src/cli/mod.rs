@@ -7,6 +7,7 @@ pub mod benefits;
 pub mod care;
 pub mod demo;
 pub mod export;
+pub mod history;
 pub mod import;
 pub mod synthetic;
 pub mod work;
@@ -113,6 +114,23 @@ pub enum Command {
     /// Work orders and the work queue.
     #[command(subcommand)]
     Work(work::WorkCommand),
+    /// Every change of a tree and its records (measurements, assessments, work orders), with before and after.
+    History {
+        /// The tree: its id, uid, or a unique uid prefix (6+ characters).
+        tree: String,
+        /// Output format.
+        #[arg(long, value_enum, default_value = "text")]
+        format: history::HistoryFormat,
+    },
+    /// Undo the last N changes (a saved tree, an import, a closed work order…); undos are audited too.
+    Undo {
+        /// How many changes to undo.
+        #[arg(default_value_t = 1)]
+        count: usize,
+        /// Only list the changes that can be undone, newest first.
+        #[arg(long)]
+        list: bool,
+    },
     /// Write a seeded synthetic inventory (invented trees on a grid of streets) for tests and benchmarks.
     Gen {
         /// Number of trees.
@@ -190,6 +208,8 @@ pub fn run(
         Command::Import(what) => import::run(&inventory_path(cli)?, what, now),
         Command::Export(what) => export::run(&inventory_path(cli)?, what),
         Command::Backup { file, force } => admin::backup(&inventory_path(cli)?, file, *force),
+        Command::History { tree, format } => history::history(&inventory_path(cli)?, tree, *format),
+        Command::Undo { count, list } => history::undo(&inventory_path(cli)?, *count, *list),
         Command::Gen {
             trees,
             seed,

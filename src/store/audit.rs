@@ -40,6 +40,8 @@ pub fn install_triggers(conn: &Connection) -> Result<(), StoreError> {
             format!("json_object({})", pairs.join(", "))
         };
         let actor = "(SELECT actor FROM audit_context WHERE id = 1)";
+        let txn = "(SELECT txn FROM audit_context WHERE id = 1)";
+        let undo_of = "(SELECT undo_of FROM audit_context WHERE id = 1)";
         for (action, event, before, after, row) in [
             (
                 "insert",
@@ -66,8 +68,8 @@ pub fn install_triggers(conn: &Connection) -> Result<(), StoreError> {
             sql.push_str(&format!(
                 "DROP TRIGGER IF EXISTS audit_{table}_{action};\n\
                  CREATE TRIGGER audit_{table}_{action} AFTER {event} ON {table} BEGIN \
-                 INSERT INTO audit_log (table_name, row_id, action, before_json, after_json, actor) \
-                 VALUES ('{table}', {row}, '{action}', {before}, {after}, {actor}); END;\n"
+                 INSERT INTO audit_log (table_name, row_id, action, before_json, after_json, actor, txn, undo_of) \
+                 VALUES ('{table}', {row}, '{action}', {before}, {after}, {actor}, {txn}, {undo_of}); END;\n"
             ));
         }
     }
@@ -83,10 +85,23 @@ fn table_columns(conn: &Connection, table: &str) -> Result<Vec<String>, StoreErr
     Ok(names)
 }
 
-/// Sets who the following writes are attributed to (inside the caller's transaction).
-pub fn set_actor(conn: &Connection, actor: &str) -> Result<(), StoreError> {
-    conn.execute("UPDATE audit_context SET actor = ?1 WHERE id = 1", [actor])?;
-    Ok(())
+/// Starts a numbered change attributed to `actor` (inside the caller's transaction); returns its number.
+pub fn set_actor(conn: &Connection, actor: &str) -> Result<i64, StoreError> {
+    Ok(conn.query_row(
+        "UPDATE audit_context SET actor = ?1, txn = txn + 1, undo_of = NULL WHERE id = 1 RETURNING txn",
+        [actor],
+        |row| row.get(0),
+    )?)
+}
+
+/// The columns of an audited table, as the triggers record them.
+pub fn columns(conn: &Connection, table: &str) -> Result<Vec<String>, StoreError> {
+    if !AUDITED_TABLES.contains(&table) {
+        return Err(StoreError::Invalid(format!(
+            "'{table}' is not an audited table"
+        )));
+    }
+    table_columns(conn, table)
 }
 
 /// One audit row.

@@ -11,6 +11,7 @@ pub mod roster;
 mod seed;
 pub mod settings;
 pub mod trees;
+pub mod undo;
 pub mod weather;
 pub mod zones;
 

@@ -73,6 +73,8 @@ pub enum Action {
     Remeasure,
     Card(tree_card::Scroll),
     StartRemoval,
+    /// Ask to undo the latest change.
+    StartUndo,
     /// A key for the field log form.
     FormKey(KeyEvent),
     /// A key for the plan view.
@@ -123,6 +125,7 @@ enum PromptFor {
 enum ConfirmFor {
     Quit,
     LeaveForm,
+    Undo,
 }
 
 #[derive(Debug, Clone)]
@@ -191,6 +194,7 @@ pub fn keys_of(view: View) -> &'static [(&'static str, &'static str)] {
 pub const GLOBAL_KEYS: &[(&str, &str)] = &[
     ("1 2 3 4", "roster, tree card, field log, plan view"),
     ("U", "metric / US units"),
+    ("u", "undo the last change (asks first)"),
     ("?", "help"),
     ("q", "quit"),
 ];
@@ -247,6 +251,7 @@ impl App {
             KeyCode::Char('3') => Some(Action::NewTree),
             KeyCode::Char('4') => Some(Action::Show(View::Plan)),
             KeyCode::Char('U') => Some(Action::ToggleUnits),
+            KeyCode::Char('u') => Some(Action::StartUndo),
             _ => None,
         };
         if global.is_some() {
@@ -398,6 +403,15 @@ impl App {
                     }
                 }
             }
+            Action::StartUndo => match query.last_change()? {
+                None => self.message = Some("nothing to undo".to_string()),
+                Some(change) => {
+                    self.popup = Some(Popup::Confirm(
+                        ConfirmFor::Undo,
+                        format!("Undo {}? (y / n)", change.describe()),
+                    ))
+                }
+            },
             Action::FormKey(key) => self.form_key(key, query, now)?,
             Action::PlanKey(key) => self.plan_key(key, query)?,
             Action::PopupKey(key) => self.popup_key(key, query, now)?,
@@ -616,6 +630,7 @@ impl App {
                         self.form.next_tree();
                         self.view = self.form_return;
                     }
+                    ConfirmFor::Undo => self.undo(query)?,
                 },
                 KeyCode::Char('n') | KeyCode::Char('N') | KeyCode::Esc => {}
                 _ => self.popup = Some(Popup::Confirm(purpose, text)),
@@ -657,6 +672,33 @@ impl App {
                 Outcome::Cancelled => {}
                 Outcome::Chosen(index) => self.picked(purpose, index),
             },
+        }
+        Ok(())
+    }
+
+    fn undo(&mut self, query: &mut Query<'_>) -> Result<(), StoreError> {
+        match query.undo_last("undo (TUI)")? {
+            None => self.message = Some("nothing to undo".to_string()),
+            Some(change) => {
+                self.roster.reload(query.roster_index()?);
+                self.plan = None;
+                if let Some(id) = self.card.as_ref().map(|c| c.detail.summary.id) {
+                    let view = self.view;
+                    match query.tree_detail(id)? {
+                        Some(_) => {
+                            self.show_card(id, query)?;
+                            self.view = view;
+                        }
+                        None => {
+                            self.card = None;
+                            if self.view == View::Card {
+                                self.view = View::Roster;
+                            }
+                        }
+                    }
+                }
+                self.message = Some(format!("undone: {}", change.describe()));
+            }
         }
         Ok(())
     }

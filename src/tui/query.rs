@@ -197,6 +197,20 @@ impl<'a> Query<'a> {
         self.store.mark_removed(tree_id, on, reason, actor, now)
     }
 
+    /// The change `undo` would revert, if any.
+    pub fn last_change(&self) -> Result<Option<crate::store::undo::Change>, StoreError> {
+        Ok(self.store.undoable_changes(1)?.into_iter().next())
+    }
+
+    /// Undoes the latest change (see [`Store::undo_last`]).
+    pub fn undo_last(
+        &mut self,
+        actor: &str,
+    ) -> Result<Option<crate::store::undo::Change>, StoreError> {
+        self.forget_benefits();
+        self.store.undo_last(actor)
+    }
+
     /// Drops computed benefits after a write (a running computation's result is ignored).
     fn forget_benefits(&mut self) {
         self.benefits = None;
