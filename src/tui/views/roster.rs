@@ -103,6 +103,21 @@ pub struct State {
     offset: usize,
     height: usize,
     rows: Vec<TreeSummary>,
+    /// Sorted positions per sort key (see `sorted_positions`).
+    sorted: std::cell::RefCell<Vec<(SortKey, std::rc::Rc<Vec<u32>>)>>,
+}
+
+/// An f32 as a u32 that sorts in the same order (NaN last).
+fn ordered_f32(x: f32) -> u32 {
+    if x.is_nan() {
+        return u32::MAX;
+    }
+    let bits = x.to_bits();
+    if bits & 0x8000_0000 != 0 {
+        !bits
+    } else {
+        bits | 0x8000_0000
+    }
 }
 
 fn band_of(entry: &RosterEntry) -> Option<ConditionBand> {
@@ -125,6 +140,7 @@ impl State {
     pub fn reload(&mut self, data: RosterIndexData) {
         let keep = self.selected_id();
         self.data = data;
+        self.sorted.borrow_mut().clear();
         self.recompute();
         if let Some(id) = keep {
             self.select_id(id);
@@ -248,6 +264,46 @@ impl State {
             || self.uid_matches.contains(&entry.id)
     }
 
+    /// Every entry's position sorted by `key`, then id; computed once per key and kept until the index
+    /// reloads, so re-sorting and filtering a million trees is a linear pass.
+    fn sorted_positions(&self, key: SortKey) -> std::rc::Rc<Vec<u32>> {
+        if let Some(cached) = self.sorted.borrow().iter().find(|(k, _)| *k == key) {
+            return cached.1.clone();
+        }
+        let rank = |e: &RosterEntry| -> u32 {
+            match key {
+                SortKey::Id => 0,
+                // The name lists are sorted, so an index is a rank.
+                SortKey::Species => e.species,
+                SortKey::Street => e.street,
+                SortKey::Dbh => ordered_f32(e.dbh_cm),
+                SortKey::Condition => ordered_f32(e.dieback_pct),
+                SortKey::Risk => u32::from(e.risk),
+                SortKey::Status => e.status as u32,
+                SortKey::Zone => e.zone,
+            }
+        };
+        let mut keys: Vec<(u32, u32, u32)> = self
+            .data
+            .entries
+            .iter()
+            .enumerate()
+            .map(|(position, e)| {
+                let second = if key == SortKey::Street {
+                    e.house_number
+                } else {
+                    0
+                };
+                (rank(e), second, position as u32)
+            })
+            .collect();
+        // Entries are in id order, so the position breaks ties by id.
+        keys.sort_unstable();
+        let positions = std::rc::Rc::new(keys.into_iter().map(|(_, _, p)| p).collect::<Vec<u32>>());
+        self.sorted.borrow_mut().push((key, positions.clone()));
+        positions
+    }
+
     fn recompute(&mut self) {
         let needle = self.search.to_lowercase();
         let species_hit: Vec<bool> = self
@@ -266,37 +322,28 @@ impl State {
             .iter()
             .map(|s| !needle.is_empty() && s.to_lowercase().contains(&needle))
             .collect();
-        let mut order: Vec<u32> = self
-            .data
-            .entries
-            .iter()
-            .enumerate()
-            .filter(|(_, e)| self.matches(e, &species_hit, &street_hit))
-            .map(|(i, _)| i as u32)
-            .collect();
-        if let Some((key, descending)) = self.sort {
-            let entries = &self.data.entries;
-            let name_rank = |index: u32| index; // lists are sorted by name, so the index is the rank
-            order.sort_by(|a, b| {
-                let (x, y) = (&entries[*a as usize], &entries[*b as usize]);
-                let ordering = match key {
-                    SortKey::Id => x.id.cmp(&y.id),
-                    SortKey::Species => name_rank(x.species).cmp(&name_rank(y.species)),
-                    SortKey::Street => (x.street, x.house_number).cmp(&(y.street, y.house_number)),
-                    SortKey::Dbh => x.dbh_cm.total_cmp(&y.dbh_cm),
-                    SortKey::Condition => x.dieback_pct.total_cmp(&y.dieback_pct),
-                    SortKey::Risk => x.risk.cmp(&y.risk),
-                    SortKey::Status => x.status.cmp(&y.status),
-                    SortKey::Zone => x.zone.cmp(&y.zone),
-                };
-                let ordering = if descending {
-                    ordering.reverse()
+        let filtering = !self.filters.is_empty() || !needle.is_empty();
+        let keep = |position: u32| {
+            !filtering
+                || self.matches(
+                    &self.data.entries[position as usize],
+                    &species_hit,
+                    &street_hit,
+                )
+        };
+        let order: Vec<u32> = match self.sort {
+            None => (0..self.data.entries.len() as u32)
+                .filter(|p| keep(*p))
+                .collect(),
+            Some((key, descending)) => {
+                let full = self.sorted_positions(key);
+                if descending {
+                    full.iter().rev().copied().filter(|p| keep(*p)).collect()
                 } else {
-                    ordering
-                };
-                ordering.then(x.id.cmp(&y.id))
-            });
-        }
+                    full.iter().copied().filter(|p| keep(*p)).collect()
+                }
+            }
+        };
         self.order = order;
         self.selected = self.selected.min(self.order.len().saturating_sub(1));
         self.keep_selection_visible();
@@ -520,4 +567,18 @@ pub fn render(state: &State, settings: AppSettings, frame: &mut Frame<'_>, area:
             .block(Block::default().borders(Borders::TOP | Borders::BOTTOM)),
         area,
     );
+}
+
+#[cfg(test)]
+mod tests {
+    use super::ordered_f32;
+
+    #[test]
+    fn f32_keys_sort_like_the_floats() {
+        let values = [-3.5f32, -0.0, 0.0, 1.0, 49.2, 1e30];
+        for pair in values.windows(2) {
+            assert!(ordered_f32(pair[0]) <= ordered_f32(pair[1]), "{pair:?}");
+        }
+        assert!(ordered_f32(f32::NAN) > ordered_f32(f32::MAX));
+    }
 }
