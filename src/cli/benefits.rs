@@ -44,6 +44,8 @@ pub enum SummaryFormat {
     Csv,
     Json,
     Md,
+    /// One self-contained printable HTML file with charts, a map, tables and the methods.
+    Html,
 }
 
 /// Grouping of `summary`.
@@ -53,6 +55,7 @@ pub enum SummaryBy {
     Street,
     Zone,
     Condition,
+    DbhClass,
     None,
 }
 
@@ -63,6 +66,7 @@ impl From<SummaryBy> for GroupBy {
             SummaryBy::Street => GroupBy::Street,
             SummaryBy::Zone => GroupBy::Zone,
             SummaryBy::Condition => GroupBy::Condition,
+            SummaryBy::DbhClass => GroupBy::DbhClass,
             SummaryBy::None => GroupBy::None,
         }
     }
@@ -225,10 +229,14 @@ pub fn summary(
     by: SummaryBy,
     format: SummaryFormat,
     out: Option<&PathBuf>,
+    top: usize,
 ) -> Result<(), CliError> {
     let store = open_store(inventory)?;
     let run = store.year_benefits(year)?;
     warn_partial_year(&run);
+    if format == SummaryFormat::Html {
+        return super::report::write(&store, &run, top, out.map(PathBuf::as_path), inventory);
+    }
     let (mut groups, total) = summarize(&run.rows, by.into());
     if by == SummaryBy::None {
         // One group of everything is the total itself.
@@ -265,6 +273,7 @@ pub fn summary(
             Ok(())
         }
         SummaryFormat::Md => write_summary_md(sink, &run, by, &groups, &total),
+        SummaryFormat::Html => Ok(()),
     })
 }
 
@@ -284,6 +293,7 @@ fn write_summary_md(
         SummaryBy::Street => "street",
         SummaryBy::Zone => "zone",
         SummaryBy::Condition => "condition",
+        SummaryBy::DbhClass => "DBH class",
         SummaryBy::None => "group",
     };
     writeln!(sink, "# Street-tree benefits, {}\n", run.year)?;

@@ -16,7 +16,8 @@ use crate::store::trees::TreeImportRow;
 
 #[derive(Debug, Subcommand)]
 pub enum ImportCommand {
-    /// Import trees from a trees CSV (all or nothing unless --keep-good).
+    /// Import trees from a trees CSV or a GeoJSON FeatureCollection of Points (all or nothing unless
+    /// --keep-good).
     Trees {
         /// The CSV file.
         file: PathBuf,
@@ -124,11 +125,40 @@ fn import_trees(
         species: &lookup,
         today: now.date_naive(),
     };
-    let parsed = read_trees_csv(bytes.as_slice(), ctx)
-        .map_err(|e| CliError::Input(format!("{}:{}: {}", file.display(), e.line, e.reason)))?;
+    let geojson = is_geojson(file, &bytes);
+    let parsed = if geojson {
+        let text = std::str::from_utf8(&bytes)
+            .map_err(|_| CliError::Input(format!("{} is not UTF-8 text", file.display())))?;
+        let parsed = crate::io::trees_geojson::read_trees_geojson(text, ctx)
+            .map_err(|e| CliError::Input(format!("{}: {}", file.display(), e.reason)))?;
+        if !parsed.ignored_properties.is_empty() {
+            eprintln!(
+                "note: properties the trees format does not have were set aside: {}",
+                parsed.ignored_properties.join(", ")
+            );
+        }
+        parsed.trees
+    } else {
+        read_trees_csv(bytes.as_slice(), ctx)
+            .map_err(|e| CliError::Input(format!("{}:{}: {}", file.display(), e.line, e.reason)))?
+    };
     let total = parsed.good.len() + parsed.bad.len();
     if !parsed.bad.is_empty() {
-        report_bad_rows(file, &parsed.bad);
+        if geojson {
+            for row in &parsed.bad {
+                for error in &row.errors {
+                    eprintln!(
+                        "{}: feature {}: {}: {}",
+                        file.display(),
+                        error.line,
+                        error.field,
+                        error.reason
+                    );
+                }
+            }
+        } else {
+            report_bad_rows(file, &parsed.bad);
+        }
         match rejects {
             None => {
                 return Err(CliError::Input(format!(
@@ -137,10 +167,15 @@ fn import_trees(
                 )));
             }
             Some(rejects_path) if !dry_run => {
-                let out = std::fs::File::create(rejects_path).map_err(|e| {
+                let mut out = std::fs::File::create(rejects_path).map_err(|e| {
                     CliError::Input(format!("cannot write {}: {e}", rejects_path.display()))
                 })?;
-                write_rejects(out, &parsed.headers, &parsed.bad).map_err(anyhow::Error::from)?;
+                if geojson {
+                    crate::io::trees_geojson::write_rejects(&mut out, &parsed.bad)?;
+                } else {
+                    write_rejects(out, &parsed.headers, &parsed.bad)
+                        .map_err(anyhow::Error::from)?;
+                }
             }
             Some(_) => {}
         }
@@ -175,6 +210,16 @@ fn import_trees(
         );
     }
     Ok(())
+}
+
+/// A `.geojson`/`.json` file, or any file whose first non-blank character is `{`, is read as GeoJSON.
+fn is_geojson(file: &Path, bytes: &[u8]) -> bool {
+    let extension = file
+        .extension()
+        .and_then(|e| e.to_str())
+        .map(str::to_ascii_lowercase);
+    matches!(extension.as_deref(), Some("geojson" | "json"))
+        || bytes.iter().find(|b| !b.is_ascii_whitespace()) == Some(&b'{')
 }
 
 /// Adds the zone of each row from the stored zone polygons.

@@ -9,6 +9,7 @@ pub mod demo;
 pub mod export;
 pub mod history;
 pub mod import;
+pub mod report;
 pub mod synthetic;
 pub mod work;
 
@@ -96,6 +97,9 @@ pub enum Command {
         /// Output file (default: standard output).
         #[arg(long, value_name = "FILE")]
         out: Option<PathBuf>,
+        /// HTML: species shown one by one before the rest are grouped as "other".
+        #[arg(long, default_value_t = 10)]
+        top: usize,
     },
     /// The whole chain behind one tree's numbers, with the source of each step.
     Explain {
@@ -232,7 +236,15 @@ pub fn run(
             by,
             format,
             out,
-        } => benefits::summary(&inventory_path(cli)?, *year, *by, *format, out.as_ref()),
+            top,
+        } => benefits::summary(
+            &inventory_path(cli)?,
+            *year,
+            *by,
+            *format,
+            out.as_ref(),
+            *top,
+        ),
         Command::Explain { tree, year } => benefits::explain(&inventory_path(cli)?, tree, *year),
         Command::Settings(command) => admin::settings(&inventory_path(cli)?, command),
         Command::Care(command) => care::run(&inventory_path(cli)?, command, now),

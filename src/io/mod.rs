@@ -2,9 +2,12 @@
 //! the store.
 
 pub mod care_csv;
+pub mod charts;
 pub mod geojson_out;
+pub mod report_html;
 pub mod species_lookup;
 pub mod trees_csv;
+pub mod trees_geojson;
 pub mod weather_csv;
 pub mod zones_geojson;
 

@@ -171,7 +171,29 @@ pub enum GroupBy {
     Street,
     Zone,
     Condition,
+    /// DBH classes of [`DBH_CLASSES`].
+    DbhClass,
     None,
+}
+
+/// DBH classes of summaries and reports: (label, lower bound cm) [common practice, no source: the
+/// 15 cm steps of street-tree inventories, wider for large trees].
+pub const DBH_CLASSES: [(&str, f64); 6] = [
+    ("< 15 cm", 0.0),
+    ("15–30 cm", 15.0),
+    ("30–45 cm", 30.0),
+    ("45–60 cm", 45.0),
+    ("60–90 cm", 60.0),
+    ("≥ 90 cm", 90.0),
+];
+
+/// The DBH class label of a diameter.
+pub fn dbh_class(dbh_cm: f64) -> &'static str {
+    DBH_CLASSES
+        .iter()
+        .rev()
+        .find(|(_, lower)| dbh_cm >= *lower)
+        .map_or(DBH_CLASSES[0].0, |(label, _)| *label)
 }
 
 /// Sums of one group of trees (or of all). DBH is averaged, every flow and stock summed.
@@ -234,6 +256,7 @@ fn group_of(row: &BenefitRow, by: GroupBy) -> String {
         GroupBy::Street => or_none(&row.street),
         GroupBy::Zone => or_none(&row.zone),
         GroupBy::Condition => row.condition.as_str().to_string(),
+        GroupBy::DbhClass => dbh_class(row.benefits.dbh_cm).to_string(),
         GroupBy::None => "all trees".to_string(),
     }
 }
@@ -268,6 +291,14 @@ pub fn summarize(rows: &[BenefitRow], by: GroupBy) -> (Vec<SummaryRow>, SummaryR
                 .unwrap_or(usize::MAX)
         };
         groups.sort_by_key(rank);
+    } else if by == GroupBy::DbhClass {
+        let rank = |g: &SummaryRow| {
+            DBH_CLASSES
+                .iter()
+                .position(|(l, _)| *l == g.group)
+                .unwrap_or(usize::MAX)
+        };
+        groups.sort_by_key(rank);
     } else {
         groups.sort_by(|a, b| {
             b.carbon_kg
@@ -276,6 +307,42 @@ pub fn summarize(rows: &[BenefitRow], by: GroupBy) -> (Vec<SummaryRow>, SummaryR
         });
     }
     (groups, total.finish())
+}
+
+/// The first `keep` groups, and the rest combined into one row labelled `other` (trees summed, mean
+/// DBH weighted by trees).
+pub fn top_and_other(groups: &[SummaryRow], keep: usize) -> Vec<SummaryRow> {
+    if groups.len() <= keep + 1 {
+        return groups.to_vec();
+    }
+    let mut out: Vec<SummaryRow> = groups[..keep].to_vec();
+    let rest = &groups[keep..];
+    let trees: usize = rest.iter().map(|g| g.trees).sum();
+    let sum = |get: fn(&SummaryRow) -> f64| rest.iter().map(get).sum::<f64>();
+    out.push(SummaryRow {
+        group: format!("other ({} groups)", rest.len()),
+        trees,
+        mean_dbh_cm: if trees > 0 {
+            rest.iter()
+                .map(|g| g.mean_dbh_cm * g.trees as f64)
+                .sum::<f64>()
+                / trees as f64
+        } else {
+            0.0
+        },
+        crown_projection_m2: sum(|g| g.crown_projection_m2),
+        leaf_area_m2: sum(|g| g.leaf_area_m2),
+        biomass_kg: sum(|g| g.biomass_kg),
+        carbon_kg: sum(|g| g.carbon_kg),
+        co2e_kg: sum(|g| g.co2e_kg),
+        co2e_seq_kg_yr: sum(|g| g.co2e_seq_kg_yr),
+        interception_m3_yr: sum(|g| g.interception_m3_yr),
+        transpiration_m3_yr: sum(|g| g.transpiration_m3_yr),
+        cooling_kwh_yr: sum(|g| g.cooling_kwh_yr),
+        value: sum(|g| g.value),
+        estimated_trees: rest.iter().map(|g| g.estimated_trees).sum(),
+    });
+    out
 }
 
 /// The calendar year of a date (for callers choosing a default year).
@@ -388,5 +455,32 @@ mod tests {
             s.chojnacky_group = row[6].to_string();
             assert!(species_params(&s).is_ok(), "{}", &row[0]);
         }
+    }
+
+    #[test]
+    fn dbh_classes_and_top_and_other() {
+        assert_eq!(dbh_class(3.0), "< 15 cm");
+        assert_eq!(dbh_class(15.0), "15–30 cm");
+        assert_eq!(dbh_class(89.9), "60–90 cm");
+        assert_eq!(dbh_class(140.0), "≥ 90 cm");
+        let row = |group: &str, trees: usize, carbon: f64| SummaryRow {
+            group: group.into(),
+            trees,
+            mean_dbh_cm: 10.0 * trees as f64,
+            carbon_kg: carbon,
+            ..SummaryRow::default()
+        };
+        let groups = vec![row("a", 1, 5.0), row("b", 2, 4.0), row("c", 3, 3.0)];
+        let kept = top_and_other(&groups, 1);
+        assert_eq!(kept.len(), 2);
+        assert_eq!(kept[1].trees, 5);
+        assert_eq!(kept[1].carbon_kg, 7.0);
+        // Weighted mean DBH: (2×20 + 3×30) / 5 = 26.
+        assert!((kept[1].mean_dbh_cm - 26.0).abs() < 1e-12);
+        assert_eq!(
+            top_and_other(&groups, 2).len(),
+            3,
+            "one leftover group is shown as itself"
+        );
     }
 }
