@@ -63,17 +63,17 @@ pub fn build(
     let currency = run.prices.currency.clone();
 
     let mut charts = Vec::new();
+    let (mut by_count, _) = summarize(&run.rows, GroupBy::Species);
+    by_count.sort_by(|a, b| b.trees.cmp(&a.trees).then(a.group.cmp(&b.group)));
+    let composition: Vec<(String, f64)> = top_and_other(&by_count, top)
+        .iter()
+        .map(|r| (r.group.clone(), r.trees as f64))
+        .collect();
     charts.push((
-        "Species composition: standing trees per species".to_string(),
-        chart(
-            "Trees by species",
-            species
-                .rows
-                .iter()
-                .map(|r| (r.group.clone(), r.trees as f64))
-                .collect(),
-            "trees",
-        )?,
+        format!(
+            "Species composition: standing trees of the {top} commonest species, the rest together"
+        ),
+        chart("Trees by species", composition, "trees")?,
     ));
     let dbh_bars: Vec<(String, f64)> = DBH_CLASSES
         .iter()

@@ -4,8 +4,11 @@
 
 use plotters::prelude::*;
 
-/// A horizontal bar chart: one bar per (label, value), labels on the left.
+/// A horizontal bar chart: one bar per (label, value), the first at the top, labels on the left.
 pub fn bar_chart(title: &str, bars: &[(String, f64)], unit: &str) -> Result<String, String> {
+    // Plotters counts segments from the bottom; reverse so the list reads top-down.
+    let bars: Vec<(String, f64)> = bars.iter().rev().cloned().collect();
+    let bars = bars.as_slice();
     let height = 60 + 26 * bars.len().max(1) as u32;
     let mut svg = String::new();
     {
@@ -29,7 +32,12 @@ pub fn bar_chart(title: &str, bars: &[(String, f64)], unit: &str) -> Result<Stri
         chart
             .configure_mesh()
             .disable_y_mesh()
+            .light_line_style(WHITE)
+            .bold_line_style(RGBColor(210, 210, 210))
             .x_desc(unit)
+            .x_label_formatter(&|v| {
+                crate::io::report_html::grouped(*v, if max < 10.0 { 1 } else { 0 })
+            })
             .y_labels(count as usize)
             .y_label_formatter(&|v| match v {
                 SegmentValue::CenterOf(i) => labels.get(*i as usize).cloned().unwrap_or_default(),

@@ -308,7 +308,7 @@ const COLOURS: [&str; 8] = [
 
 fn marker(class: usize, x: f64, y: f64, size: f64) -> String {
     let colour = COLOURS[class % COLOURS.len()];
-    match class % 4 {
+    match class % 6 {
         0 => format!("<circle cx=\"{x:.1}\" cy=\"{y:.1}\" r=\"{size:.1}\" fill=\"{colour}\" />"),
         1 => format!(
             "<rect x=\"{:.1}\" y=\"{:.1}\" width=\"{:.1}\" height=\"{:.1}\" fill=\"{colour}\" />",
@@ -325,6 +325,22 @@ fn marker(class: usize, x: f64, y: f64, size: f64) -> String {
             y + size,
             x + size * 1.1,
             y + size
+        ),
+        4 => format!(
+            "<path d=\"M{:.1},{:.1} L{:.1},{:.1} M{:.1},{:.1} L{:.1},{:.1}\" stroke=\"{colour}\" stroke-width=\"{:.1}\" />",
+            x - size,
+            y - size,
+            x + size,
+            y + size,
+            x - size,
+            y + size,
+            x + size,
+            y - size,
+            size * 0.7
+        ),
+        5 => format!(
+            "<circle cx=\"{x:.1}\" cy=\"{y:.1}\" r=\"{size:.1}\" fill=\"none\" stroke=\"{colour}\" stroke-width=\"{:.1}\" />",
+            size * 0.6
         ),
         _ => format!(
             "<polygon points=\"{:.1},{:.1} {:.1},{:.1} {:.1},{:.1} {:.1},{:.1}\" fill=\"{colour}\" />",
@@ -364,7 +380,10 @@ fn map_svg(report: &Report) -> String {
     let span_y = (max_lat - min_lat).max(1e-9);
     let scale = ((map_width - 20.0) / span_x).min((height - 20.0) / span_y);
     let mut counts = vec![0usize; report.map_legend.len().max(1)];
-    for p in &report.map {
+    // Worse classes are drawn last, on top, so a failing tree is never hidden under sound ones.
+    let mut points: Vec<&MapPoint> = report.map.iter().collect();
+    points.sort_by_key(|p| p.class);
+    for p in points {
         let x = 10.0 + (p.lon - min_lon) * scale_x * scale;
         let y = height - 10.0 - (p.lat - min_lat) * scale;
         svg.push_str(&marker(p.class, x, y, 2.2));
