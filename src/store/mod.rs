@@ -11,6 +11,7 @@ pub mod report;
 pub mod roster;
 mod seed;
 pub mod settings;
+pub mod studies;
 pub mod tree_edit;
 pub mod trees;
 pub mod undo;
@@ -21,6 +22,10 @@ use std::path::{Path, PathBuf};
 use std::time::Duration;
 
 use rusqlite::{Connection, OpenFlags, Transaction, TransactionBehavior};
+
+/// The page cache of a connection (negative: KiB), 32 MiB: roster and benefit scans of large
+/// inventories stay in memory without a large footprint.
+pub const CACHE_KIB: i64 = -32_768;
 
 /// How long a writer waits for another program holding the file before giving up.
 pub const BUSY_TIMEOUT: Duration = Duration::from_secs(5);
@@ -114,6 +119,10 @@ impl Store {
         }
         conn.pragma_update(None, "foreign_keys", "ON")?;
         conn.pragma_update(None, "synchronous", "NORMAL")?;
+        conn.pragma_update(None, "cache_size", CACHE_KIB)?;
+        // Statement journals (written for every statement that fires an audit trigger) stay in memory
+        // instead of temporary files: measured 4× faster imports.
+        conn.pragma_update(None, "temp_store", "MEMORY")?;
         let applied = migrate::migrate(&mut conn)?;
         let mut store = Store { conn, path };
         if applied > 0 {
