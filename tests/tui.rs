@@ -422,3 +422,785 @@ fn u_undoes_the_last_saved_tree_after_asking() {
     }
     assert_eq!(store.tree_count().expect("count"), 2497);
 }
+
+// ---- Care: watchlist, work queue, assessment form, work orders, tree attributes -------------------
+
+use ratatui::buffer::Buffer;
+use ratatui::style::{Color, Modifier};
+use streetwood::care::risk::{CAUTION, RiskRating};
+use streetwood::care::work::{Priority, WorkStatus, WorkTask};
+use streetwood::model::TreeStatus;
+use streetwood::tui::app::keys_of;
+use streetwood::tui::views::assess_form::{self, ModeField};
+use streetwood::tui::views::care::List;
+
+fn buffer(app: &mut App, query: &mut Query<'_>, width: u16, height: u16) -> Buffer {
+    let mut terminal = Terminal::new(TestBackend::new(width, height)).expect("terminal");
+    app.set_viewport(height);
+    app.refresh(query).expect("refresh");
+    terminal.draw(|frame| app.render(frame)).expect("draw");
+    terminal.backend().buffer().clone()
+}
+
+/// The (x, y) of the first cell where `needle` starts on a line that also holds `line_has`.
+fn find(buffer: &Buffer, line_has: &str, needle: &str) -> Option<(u16, u16)> {
+    for y in 0..buffer.area.height {
+        let cells: Vec<&str> = (0..buffer.area.width)
+            .map(|x| buffer[(x, y)].symbol())
+            .collect();
+        let line: String = cells.concat();
+        if !line.contains(line_has) {
+            continue;
+        }
+        for x in 0..cells.len() {
+            if cells[x..].concat().starts_with(needle) {
+                return Some((x as u16, y));
+            }
+        }
+    }
+    None
+}
+
+fn esc(app: &mut App, query: &mut Query<'_>) {
+    key(app, query, KeyCode::Esc);
+}
+
+#[test]
+fn care_views_and_the_assessment_form_at_100x30_and_80x24() {
+    let mut store = demo_store();
+    let mut query = Query::new(&mut store);
+    let mut app = App::new(&query, AppSettings::default(), today()).expect("app");
+    keys(&mut app, &mut query, "5");
+    assert_eq!(app.view, View::Care);
+    insta::assert_snapshot!(
+        "care_watchlist_100x30",
+        screen(&mut app, &mut query, 100, 30)
+    );
+    insta::assert_snapshot!("care_watchlist_80x24", screen(&mut app, &mut query, 80, 24));
+    key(&mut app, &mut query, KeyCode::Tab);
+    insta::assert_snapshot!(
+        "care_work_queue_100x30",
+        screen(&mut app, &mut query, 100, 30)
+    );
+    insta::assert_snapshot!(
+        "care_work_queue_80x24",
+        screen(&mut app, &mut query, 80, 24)
+    );
+    // The assessment form of the watchlist's first tree, half filled in: Matrix 1's cell is chosen,
+    // Matrix 2's row is chosen, its column not yet.
+    keys(&mut app, &mut query, "l");
+    keys(&mut app, &mut query, "a");
+    assert_eq!(app.view, View::Assess);
+    keys(&mut app, &mut query, "b");
+    key(&mut app, &mut query, KeyCode::Tab);
+    keys(&mut app, &mut query, "30");
+    key(&mut app, &mut query, KeyCode::Tab);
+    keys(&mut app, &mut query, "footpath");
+    key(&mut app, &mut query, KeyCode::Tab);
+    keys(&mut app, &mut query, "f");
+    key(&mut app, &mut query, KeyCode::Tab);
+    keys(&mut app, &mut query, "pp");
+    key(&mut app, &mut query, KeyCode::Tab);
+    keys(&mut app, &mut query, "m");
+    insta::assert_snapshot!("assess_form_100x30", screen(&mut app, &mut query, 100, 30));
+    insta::assert_snapshot!("assess_form_80x24", screen(&mut app, &mut query, 80, 24));
+    let text = screen(&mut app, &mut query, 80, 24);
+    assert!(
+        text.contains("qualified arborist"),
+        "the caution shows:\n{text}"
+    );
+}
+
+#[test]
+fn care_counts_match_the_store_and_filters_narrow_the_work_queue() {
+    let mut store = demo_store();
+    let mut query = Query::new(&mut store);
+    let mut app = App::new(&query, AppSettings::default(), today()).expect("app");
+    keys(&mut app, &mut query, "5");
+    let care = app.care.as_ref().expect("loaded");
+    // The overdue re-inspections of the demo at 2026-11-30 (hand count in tests/cli_care.rs: 10).
+    assert_eq!(care.watch.overdue, 10);
+    assert_eq!(care.watch.entries.len(), 54);
+    let first_not_overdue = care
+        .watch
+        .entries
+        .iter()
+        .position(|e| e.overdue_days.is_none())
+        .expect("some are not overdue");
+    assert!(
+        care.watch.entries[..first_not_overdue]
+            .iter()
+            .all(|e| e.overdue_days.is_some()),
+        "overdue re-inspections first"
+    );
+    let text = screen(&mut app, &mut query, 100, 30);
+    assert!(
+        text.contains("54 trees on the watchlist · 10 overdue for re-inspection as of 2026-11-30"),
+        "{text}"
+    );
+    key(&mut app, &mut query, KeyCode::Tab);
+    let queue = &app.care.as_ref().expect("loaded").work;
+    let ids: Vec<(u8, Option<NaiveDate>)> = queue
+        .entries
+        .iter()
+        .map(|e| (e.item.priority.get(), e.item.due_on))
+        .collect();
+    let mut sorted = ids.clone();
+    sorted.sort_by(|a, b| {
+        a.0.cmp(&b.0)
+            .then(a.1.is_none().cmp(&b.1.is_none()))
+            .then(a.1.cmp(&b.1))
+    });
+    assert_eq!(ids, sorted, "by priority, then due date");
+    let open_cost: f64 = queue
+        .entries
+        .iter()
+        .filter(|e| e.item.status.is_pending())
+        .filter_map(|e| e.item.estimated_cost)
+        .sum();
+    assert!((queue.open_estimated_cost - open_cost).abs() < 1e-6);
+    let text = screen(&mut app, &mut query, 100, 30);
+    assert!(text.contains("42 orders"), "{text}");
+    assert!(text.contains("USD 15,600.00"), "{text}");
+
+    // Filter by crew through the picker, then by task.
+    keys(&mut app, &mut query, "f");
+    keys(&mut app, &mut query, "crew");
+    key(&mut app, &mut query, KeyCode::Enter);
+    keys(&mut app, &mut query, "Kestrel");
+    key(&mut app, &mut query, KeyCode::Enter);
+    let care = app.care.as_ref().expect("loaded");
+    assert!(!care.work.entries.is_empty());
+    assert!(
+        care.work
+            .entries
+            .iter()
+            .all(|e| e.item.crew.as_deref() == Some("Kestrel crew"))
+    );
+    let kestrel = care.work.entries.len();
+    keys(&mut app, &mut query, "f");
+    keys(&mut app, &mut query, "task");
+    key(&mut app, &mut query, KeyCode::Enter);
+    keys(&mut app, &mut query, "prune");
+    key(&mut app, &mut query, KeyCode::Enter);
+    let care = app.care.as_ref().expect("loaded");
+    assert!(care.work.entries.len() <= kestrel);
+    assert!(
+        care.work
+            .entries
+            .iter()
+            .all(|e| e.item.task == WorkTask::Prune)
+    );
+    let text = screen(&mut app, &mut query, 100, 30);
+    assert!(text.contains("crew Kestrel crew, task prune"), "{text}");
+    keys(&mut app, &mut query, "F");
+    assert_eq!(app.care.as_ref().expect("loaded").work.entries.len(), 42);
+    keys(&mut app, &mut query, "o");
+    assert_eq!(app.care.as_ref().expect("loaded").work.entries.len(), 25);
+    // Enter opens the row's tree card; Esc comes back to where the card was opened from.
+    let tree = app.care.as_ref().and_then(|c| c.selected_tree());
+    key(&mut app, &mut query, KeyCode::Enter);
+    assert_eq!(app.view, View::Card);
+    assert_eq!(app.card.as_ref().map(|c| c.detail.summary.id), tree);
+    esc(&mut app, &mut query);
+    assert_eq!(app.view, View::Care);
+    keys(&mut app, &mut query, "1");
+    key(&mut app, &mut query, KeyCode::Enter);
+    esc(&mut app, &mut query);
+    assert_eq!(app.view, View::Roster);
+}
+
+#[test]
+fn help_lists_every_key_of_each_view() {
+    let mut store = demo_store();
+    let mut query = Query::new(&mut store);
+    let mut app = App::new(&query, AppSettings::default(), today()).expect("app");
+    keys(&mut app, &mut query, "5");
+    keys(&mut app, &mut query, "?");
+    let text = screen(&mut app, &mut query, 80, 24);
+    for (keys_text, _, what) in keys_of(View::Care) {
+        assert!(text.contains(keys_text), "{keys_text} in:\n{text}");
+        assert!(text.contains(what), "{what} in:\n{text}");
+    }
+    key(&mut app, &mut query, KeyCode::Esc);
+    keys(&mut app, &mut query, "a");
+    assert_eq!(app.view, View::Assess);
+    key(&mut app, &mut query, KeyCode::F(1));
+    let text = screen(&mut app, &mut query, 80, 24);
+    for (keys_text, _, what) in keys_of(View::Assess) {
+        assert!(text.contains(keys_text), "{keys_text} in:\n{text}");
+        assert!(text.contains(what), "{what} in:\n{text}");
+    }
+    key(&mut app, &mut query, KeyCode::Esc);
+    esc(&mut app, &mut query);
+    assert_eq!(
+        app.view,
+        View::Care,
+        "an untouched form leaves without asking"
+    );
+}
+
+#[test]
+fn ratings_have_words_and_colour_only_without_no_color() {
+    for no_color in [false, true] {
+        let mut store = demo_store();
+        let mut query = Query::new(&mut store);
+        let mut app = App::new(
+            &query,
+            AppSettings {
+                us_units: false,
+                no_color,
+            },
+            today(),
+        )
+        .expect("app");
+        keys(&mut app, &mut query, "5");
+        let buffer = buffer(&mut app, &mut query, 100, 30);
+        let (x, y) = find(&buffer, "1480", "extreme").expect("an extreme row");
+        let cell = &buffer[(x, y)];
+        if no_color {
+            assert_eq!(cell.fg, Color::Reset, "NO_COLOR: no colour");
+        } else {
+            assert_ne!(cell.fg, Color::Reset, "a colour beside the word");
+        }
+        assert!(
+            cell.modifier.contains(Modifier::BOLD),
+            "high and extreme are bold too"
+        );
+    }
+}
+
+/// Issue 5 "done when": a leaning tree over a bus stop is assessed to extreme through the form; the
+/// matrices show the chosen row, column and cell as the categories are picked; saving proposes a
+/// priority-1 work order, edited and confirmed; the order exists and the watchlist shows the tree.
+#[test]
+fn the_assessment_form_rates_by_the_matrices_and_creates_the_proposed_work_order() {
+    let mut store = demo_store();
+    {
+        let mut query = Query::new(&mut store);
+        let mut app = App::new(&query, AppSettings::default(), today()).expect("app");
+        key(&mut app, &mut query, KeyCode::Enter);
+        assert_eq!(app.card.as_ref().map(|c| c.detail.summary.id), Some(1));
+        keys(&mut app, &mut query, "a");
+        assert_eq!(app.view, View::Assess);
+        // part: whole tree (typed first letter), size, target, occupancy constant.
+        keys(&mut app, &mut query, "w");
+        key(&mut app, &mut query, KeyCode::Tab);
+        keys(&mut app, &mut query, "62");
+        key(&mut app, &mut query, KeyCode::Tab);
+        keys(&mut app, &mut query, "bus stop");
+        key(&mut app, &mut query, KeyCode::Tab);
+        // Occupancy through the picker.
+        key(&mut app, &mut query, KeyCode::Enter);
+        keys(&mut app, &mut query, "const");
+        key(&mut app, &mut query, KeyCode::Enter);
+        key(&mut app, &mut query, KeyCode::Tab);
+        // Likelihood of failure with ←/→: from none, ← is the last (imminent).
+        key(&mut app, &mut query, KeyCode::Left);
+        let form = app.assess.as_ref().expect("form");
+        assert_eq!(
+            form.mode_choice(0).failure,
+            Some(streetwood::care::risk::LikelihoodOfFailure::Imminent)
+        );
+        let b = buffer(&mut app, &mut query, 100, 30);
+        let (x, y) = find(&b, "imminent", "▶imminent").expect("the chosen row is marked");
+        assert!(b[(x, y)].modifier.contains(Modifier::REVERSED));
+        assert!(
+            find(&b, "Mode 1 of 1", "choose failure and impact").is_some(),
+            "no likelihood before impact is chosen"
+        );
+        key(&mut app, &mut query, KeyCode::Tab);
+        keys(&mut app, &mut query, "h");
+        // Matrix 1: imminent × high → very likely (ISA BMP 2017, METHODS.md M9): the cell is marked.
+        let b = buffer(&mut app, &mut query, 100, 30);
+        let (x, y) = find(&b, "▶imminent", "[v.likely]").expect("the chosen cell is bracketed");
+        assert!(b[(x + 1, y)].modifier.contains(Modifier::REVERSED));
+        let (x, y) = find(&b, "very low", "▼high").expect("the chosen column is marked");
+        assert!(b[(x, y)].modifier.contains(Modifier::REVERSED));
+        let (x, y) = find(&b, "▶v", "▶v").expect("Matrix 2's row follows Matrix 1's result");
+        assert!(b[(x, y)].modifier.contains(Modifier::REVERSED));
+        key(&mut app, &mut query, KeyCode::Tab);
+        keys(&mut app, &mut query, "ss");
+        // Matrix 2: very likely × severe → extreme.
+        let text = screen(&mut app, &mut query, 100, 30);
+        assert!(
+            text.contains("Mode 1 of 1: very likely → EXTREME"),
+            "{text}"
+        );
+        assert!(
+            text.contains("Overall: EXTREME (highest of 1 mode)"),
+            "{text}"
+        );
+        assert!(
+            text.contains("Next inspection 2026-11-30 (0 months)"),
+            "{text}"
+        );
+        assert!(text.contains(&CAUTION[..40]), "{text}");
+        // A second mode, rated low, does not lower the overall rating (the highest wins).
+        ctrl(&mut app, &mut query, 'n');
+        keys(&mut app, &mut query, "b");
+        key(&mut app, &mut query, KeyCode::Tab);
+        key(&mut app, &mut query, KeyCode::Tab);
+        key(&mut app, &mut query, KeyCode::Tab);
+        keys(&mut app, &mut query, "r");
+        key(&mut app, &mut query, KeyCode::Tab);
+        keys(&mut app, &mut query, "p");
+        key(&mut app, &mut query, KeyCode::Tab);
+        keys(&mut app, &mut query, "l");
+        key(&mut app, &mut query, KeyCode::Tab);
+        keys(&mut app, &mut query, "m");
+        let text = screen(&mut app, &mut query, 100, 30);
+        assert!(text.contains("Mode 2 of 2: unlikely → LOW"), "{text}");
+        assert!(text.contains("Modes: 1 extreme, 2 low"), "{text}");
+        assert!(
+            text.contains("Overall: EXTREME (highest of 2 modes)"),
+            "{text}"
+        );
+        // Save: the extreme rating proposes a priority-1 order (no mitigation given, the whole
+        // tree fails: removal).
+        ctrl(&mut app, &mut query, 's');
+        let text = screen(&mut app, &mut query, 100, 30);
+        assert!(text.contains("EXTREME risk: proposed work order"), "{text}");
+        assert!(text.contains("priority 1 urgent"), "{text}");
+        match &app.assess.as_ref().expect("form").stage {
+            assess_form::Stage::Proposal(p) => {
+                assert_eq!(p.proposal.priority, Priority::URGENT);
+                assert_eq!(p.proposal.task, WorkTask::Remove);
+            }
+            assess_form::Stage::Editing => panic!("the proposal shows"),
+        }
+        // Edit the proposal: crew and estimate, then confirm.
+        keys(&mut app, &mut query, "e");
+        for _ in 0..3 {
+            key(&mut app, &mut query, KeyCode::Tab);
+        }
+        keys(&mut app, &mut query, "Kestrel crew");
+        key(&mut app, &mut query, KeyCode::Tab);
+        keys(&mut app, &mut query, "-5");
+        key(&mut app, &mut query, KeyCode::Enter);
+        let text = screen(&mut app, &mut query, 100, 30);
+        assert!(text.contains("must not be negative"), "{text}");
+        key(&mut app, &mut query, KeyCode::Backspace);
+        key(&mut app, &mut query, KeyCode::Backspace);
+        keys(&mut app, &mut query, "1200");
+        key(&mut app, &mut query, KeyCode::Enter);
+        keys(&mut app, &mut query, "y");
+        let message = app.message.clone().unwrap_or_default();
+        assert!(message.contains(": EXTREME; work order"), "{message}");
+        assert!(
+            message.contains("created (remove, priority 1)"),
+            "{message}"
+        );
+        assert_eq!(app.view, View::Card, "back where the form was opened");
+        assert!(app.assess.is_none());
+        let card = app.card.as_ref().expect("card");
+        assert_eq!(card.detail.assessments[0].rating, "extreme");
+        assert!(
+            card.detail
+                .work
+                .iter()
+                .any(|w| w.task == "remove" && w.priority == 1)
+        );
+        // The watchlist shows the tree at the top of the extreme ones.
+        keys(&mut app, &mut query, "5");
+        keys(&mut app, &mut query, "l");
+        let care = app.care.as_ref().expect("care");
+        let entry = care
+            .watch
+            .entries
+            .iter()
+            .find(|e| e.item.tree_id == 1)
+            .expect("tree 1 on the watchlist");
+        assert_eq!(entry.item.rating, RiskRating::Extreme);
+        assert_eq!(entry.item.pending_work, 1);
+        let text = screen(&mut app, &mut query, 100, 30);
+        assert!(text.contains("Foundry Street"), "{text}");
+        assert_eq!(
+            app.roster.data.entries[0].risk, 4,
+            "the roster's risk is reloaded"
+        );
+    }
+    let orders = store.work_items(&[]).expect("orders");
+    let order = orders
+        .iter()
+        .find(|o| o.tree_id == 1)
+        .expect("the order exists");
+    assert_eq!(order.task, WorkTask::Remove);
+    assert_eq!(order.priority, Priority::URGENT);
+    assert_eq!(order.status, WorkStatus::Open);
+    assert_eq!(order.crew.as_deref(), Some("Kestrel crew"));
+    assert_eq!(order.estimated_cost, Some(1200.0));
+    assert_eq!(order.due_on, Some(today()));
+    assert_eq!(order.rating, Some(RiskRating::Extreme));
+    let assessments = store.assessments_of_tree(1).expect("history");
+    assert_eq!(assessments.len(), 1);
+    let a = &assessments[0];
+    assert_eq!(a.rating, RiskRating::Extreme);
+    assert_eq!(a.level, 2);
+    assert_eq!(a.modes.len(), 2);
+    assert_eq!(a.modes[0].target.as_deref(), Some("bus stop"));
+    assert_eq!(a.modes[0].part_size_cm, Some(62.0));
+    assert_eq!(a.work_order_ids, vec![order.id]);
+    assert_eq!(
+        audit::count(store.conn(), "assessments", "insert").expect("count"),
+        55,
+        "54 demo assessments and this one, audited"
+    );
+}
+
+#[test]
+fn a_moderate_assessment_proposes_no_work_and_skip_saves_without_the_order() {
+    let mut store = demo_store();
+    let before = store.work_items(&[]).expect("orders").len();
+    {
+        let mut query = Query::new(&mut store);
+        let mut app = App::new(&query, AppSettings::default(), today()).expect("app");
+        key(&mut app, &mut query, KeyCode::Enter);
+        keys(&mut app, &mut query, "a");
+        // trunk, frequent, probable × high → likely; × significant → high: proposes priority 2.
+        keys(&mut app, &mut query, "t");
+        for _ in 0..3 {
+            key(&mut app, &mut query, KeyCode::Tab);
+        }
+        keys(&mut app, &mut query, "f");
+        key(&mut app, &mut query, KeyCode::Tab);
+        keys(&mut app, &mut query, "pp");
+        key(&mut app, &mut query, KeyCode::Tab);
+        keys(&mut app, &mut query, "h");
+        key(&mut app, &mut query, KeyCode::Tab);
+        keys(&mut app, &mut query, "s");
+        ctrl(&mut app, &mut query, 's');
+        match &app.assess.as_ref().expect("form").stage {
+            assess_form::Stage::Proposal(p) => assert_eq!(p.proposal.priority, Priority::HIGH),
+            assess_form::Stage::Editing => panic!("high proposes work"),
+        }
+        // Esc goes back to the fields; the mode's consequences become minor → moderate.
+        esc(&mut app, &mut query);
+        assert!(matches!(
+            app.assess.as_ref().expect("form").stage,
+            assess_form::Stage::Editing
+        ));
+        let form = app.assess.as_mut().expect("form");
+        form.form
+            .focus_on(assess_form::Key::Mode(0, ModeField::Consequences));
+        keys(&mut app, &mut query, "m");
+        ctrl(&mut app, &mut query, 's');
+        let message = app.message.clone().unwrap_or_default();
+        assert!(
+            message.contains("MODERATE; next inspection 2028-11-30"),
+            "{message}"
+        );
+        // A high one again, skipped with s.
+        keys(&mut app, &mut query, "a");
+        keys(&mut app, &mut query, "t");
+        for _ in 0..3 {
+            key(&mut app, &mut query, KeyCode::Tab);
+        }
+        keys(&mut app, &mut query, "f");
+        key(&mut app, &mut query, KeyCode::Tab);
+        keys(&mut app, &mut query, "pp");
+        key(&mut app, &mut query, KeyCode::Tab);
+        keys(&mut app, &mut query, "h");
+        key(&mut app, &mut query, KeyCode::Tab);
+        keys(&mut app, &mut query, "s");
+        ctrl(&mut app, &mut query, 's');
+        keys(&mut app, &mut query, "s");
+        let message = app.message.clone().unwrap_or_default();
+        assert!(
+            message.contains("HIGH; next inspection 2027-05-30"),
+            "{message}"
+        );
+    }
+    assert_eq!(store.work_items(&[]).expect("orders").len(), before);
+    let history = store.assessments_of_tree(1).expect("history");
+    assert_eq!(history.len(), 2, "re-assessing keeps the history");
+}
+
+#[test]
+fn a_work_order_through_its_life_in_the_tui_and_a_removal_done_removes_the_tree() {
+    let mut store = demo_store();
+    let new_id;
+    {
+        let mut query = Query::new(&mut store);
+        let mut app = App::new(&query, AppSettings::default(), today()).expect("app");
+        key(&mut app, &mut query, KeyCode::Enter);
+        // Add a removal from the card (w): task and priority are required.
+        keys(&mut app, &mut query, "w");
+        ctrl(&mut app, &mut query, 's');
+        let text = screen(&mut app, &mut query, 80, 24);
+        assert!(text.contains("choose a task"), "{text}");
+        keys(&mut app, &mut query, "r");
+        key(&mut app, &mut query, KeyCode::Tab);
+        keys(&mut app, &mut query, "1");
+        key(&mut app, &mut query, KeyCode::Tab);
+        keys(&mut app, &mut query, "2026-12-15");
+        ctrl(&mut app, &mut query, 's');
+        let message = app.message.clone().unwrap_or_default();
+        assert!(message.starts_with("added work order "), "{message}");
+        new_id = message
+            .trim_start_matches("added work order ")
+            .split(':')
+            .next()
+            .and_then(|n| n.parse::<i64>().ok())
+            .expect("the new id");
+        // And a pruning order, which the removal will cancel.
+        keys(&mut app, &mut query, "w");
+        keys(&mut app, &mut query, "p");
+        key(&mut app, &mut query, KeyCode::Tab);
+        keys(&mut app, &mut query, "4");
+        ctrl(&mut app, &mut query, 's');
+        // The tree's orders in the work queue (o).
+        keys(&mut app, &mut query, "o");
+        assert_eq!(app.view, View::Care);
+        let care = app.care.as_ref().expect("care");
+        assert_eq!(care.list, List::Work);
+        assert_eq!(care.work.entries.len(), 2);
+        assert_eq!(care.selected_work().map(|e| e.item.id), Some(new_id));
+
+        // Schedule: a date in the past is refused with the rule's reason next to the field.
+        keys(&mut app, &mut query, "s");
+        ctrl(&mut app, &mut query, 'u');
+        keys(&mut app, &mut query, "2026-11-01");
+        ctrl(&mut app, &mut query, 's');
+        let text = screen(&mut app, &mut query, 80, 24);
+        assert!(text.contains("2026-11-01 is before today"), "{text}");
+        ctrl(&mut app, &mut query, 'u');
+        keys(&mut app, &mut query, "2026-12-02");
+        key(&mut app, &mut query, KeyCode::Tab);
+        keys(&mut app, &mut query, "Kestrel crew");
+        ctrl(&mut app, &mut query, 's');
+        let item = &app
+            .care
+            .as_ref()
+            .expect("care")
+            .selected_work()
+            .expect("row")
+            .item;
+        assert_eq!(item.status, WorkStatus::Scheduled);
+        assert_eq!(item.scheduled_on, NaiveDate::from_ymd_opt(2026, 12, 2));
+        assert_eq!(item.crew.as_deref(), Some("Kestrel crew"));
+
+        // Edit: the estimate; an edit that changes nothing is refused by the rules.
+        keys(&mut app, &mut query, "e");
+        ctrl(&mut app, &mut query, 's');
+        let text = screen(&mut app, &mut query, 80, 24);
+        assert!(text.contains("nothing to change"), "{text}");
+        for _ in 0..4 {
+            key(&mut app, &mut query, KeyCode::Tab);
+        }
+        keys(&mut app, &mut query, "950");
+        ctrl(&mut app, &mut query, 's');
+        let item = &app
+            .care
+            .as_ref()
+            .expect("care")
+            .selected_work()
+            .expect("row")
+            .item;
+        assert_eq!(item.estimated_cost, Some(950.0));
+
+        // Done: the removal marks the tree removed and cancels the pruning.
+        keys(&mut app, &mut query, "d");
+        let text = screen(&mut app, &mut query, 80, 24);
+        assert!(text.contains("marks tree 1 removed"), "{text}");
+        key(&mut app, &mut query, KeyCode::Tab);
+        keys(&mut app, &mut query, "1040");
+        ctrl(&mut app, &mut query, 's');
+        let message = app.message.clone().unwrap_or_default();
+        assert!(
+            message.contains("tree 1 now removed as of 2026-11-30"),
+            "{message}"
+        );
+        assert!(message.contains("also cancelled"), "{message}");
+        let care = app.care.as_ref().expect("care");
+        let statuses: Vec<WorkStatus> = care.work.entries.iter().map(|e| e.item.status).collect();
+        assert!(statuses.contains(&WorkStatus::Done) && statuses.contains(&WorkStatus::Cancelled));
+        // Done is final.
+        let done_row = care
+            .work
+            .entries
+            .iter()
+            .position(|e| e.item.id == new_id)
+            .expect("row");
+        keys(&mut app, &mut query, "g");
+        for _ in 0..done_row {
+            keys(&mut app, &mut query, "j");
+        }
+        keys(&mut app, &mut query, "d");
+        let message = app.message.clone().unwrap_or_default();
+        assert!(message.contains("done orders are final"), "{message}");
+
+        // The roster and the card show the tree removed (kept).
+        let card = app.card.as_ref().expect("card");
+        assert_eq!(card.detail.summary.status, TreeStatus::Removed);
+        key(&mut app, &mut query, KeyCode::Enter);
+        assert_eq!(app.view, View::Card);
+        let text = screen(&mut app, &mut query, 100, 30);
+        assert!(text.contains("status removed on 2026-11-30"), "{text}");
+        keys(&mut app, &mut query, "1");
+        let text = screen(&mut app, &mut query, 100, 30);
+        let row = text
+            .lines()
+            .find(|l| l.contains("▶ 1 "))
+            .expect("tree 1's row");
+        assert!(row.contains("removed"), "{row}");
+
+        // A removed tree takes stump grinding; cancel it with a reason.
+        keys(&mut app, &mut query, "2");
+        keys(&mut app, &mut query, "w");
+        keys(&mut app, &mut query, "ss");
+        key(&mut app, &mut query, KeyCode::Tab);
+        keys(&mut app, &mut query, "3");
+        ctrl(&mut app, &mut query, 's');
+        assert!(
+            app.message
+                .as_deref()
+                .is_some_and(|m| m.contains("stump, priority 3")),
+            "{:?}",
+            app.message
+        );
+        keys(&mut app, &mut query, "o");
+        let stump = app
+            .care
+            .as_ref()
+            .expect("care")
+            .work
+            .entries
+            .iter()
+            .position(|e| e.item.task == WorkTask::Stump)
+            .expect("the stump order");
+        keys(&mut app, &mut query, "g");
+        for _ in 0..stump {
+            keys(&mut app, &mut query, "j");
+        }
+        keys(&mut app, &mut query, "c");
+        keys(&mut app, &mut query, "duplicate");
+        ctrl(&mut app, &mut query, 's');
+        assert!(
+            app.message
+                .as_deref()
+                .is_some_and(|m| m.ends_with("cancelled")),
+            "{:?}",
+            app.message
+        );
+    }
+    let detail = store.tree_detail(1).expect("query").expect("kept");
+    assert_eq!(detail.summary.status, TreeStatus::Removed);
+    assert_eq!(detail.removed_on.as_deref(), Some("2026-11-30"));
+    let orders = store.work_items(&[]).expect("orders");
+    let removal = orders.iter().find(|o| o.id == new_id).expect("removal");
+    assert_eq!(removal.status, WorkStatus::Done);
+    assert_eq!(removal.actual_cost, Some(1040.0));
+    assert_eq!(removal.estimated_cost, Some(950.0));
+    let stump = orders
+        .iter()
+        .find(|o| o.tree_id == 1 && o.task == WorkTask::Stump)
+        .expect("stump");
+    assert_eq!(stump.status, WorkStatus::Cancelled);
+    assert!(
+        stump
+            .notes
+            .as_deref()
+            .is_some_and(|n| n.contains("cancelled: duplicate"))
+    );
+    let history = audit::entries_for_row(store.conn(), "trees", 1).expect("audit");
+    assert!(
+        history
+            .last()
+            .and_then(|e| e.after_json.as_deref())
+            .is_some_and(|j| j.contains("\"status\":\"removed\"")),
+        "{history:?}"
+    );
+}
+
+#[test]
+fn editing_a_tree_street_from_the_card_saves_and_audits_it_without_a_measurement() {
+    let mut store = demo_store();
+    let measurements = store.measurement_count().expect("count");
+    {
+        let mut query = Query::new(&mut store);
+        let mut app = App::new(&query, AppSettings::default(), today()).expect("app");
+        key(&mut app, &mut query, KeyCode::Enter);
+        keys(&mut app, &mut query, "e");
+        let text = screen(&mut app, &mut query, 80, 24);
+        assert!(text.contains("Edit tree 1"), "{text}");
+        assert!(text.contains("Foundry Street"), "{text}");
+        key(&mut app, &mut query, KeyCode::Tab);
+        ctrl(&mut app, &mut query, 'u');
+        keys(&mut app, &mut query, "Quill Lane");
+        // A bad latitude is refused as typed with the import's reason.
+        for _ in 0..3 {
+            key(&mut app, &mut query, KeyCode::Tab);
+        }
+        ctrl(&mut app, &mut query, 'u');
+        keys(&mut app, &mut query, "95");
+        let text = screen(&mut app, &mut query, 100, 30);
+        assert!(
+            text.contains("95 is out of range (-90 to 90 degrees)"),
+            "{text}"
+        );
+        ctrl(&mut app, &mut query, 's');
+        assert!(
+            app.message
+                .as_deref()
+                .is_some_and(|m| m.contains("not saved")),
+            "{:?}",
+            app.message
+        );
+        ctrl(&mut app, &mut query, 'u');
+        keys(&mut app, &mut query, "42.700081");
+        ctrl(&mut app, &mut query, 's');
+        let message = app.message.clone().unwrap_or_default();
+        assert!(message.contains("saved tree 1's attributes"), "{message}");
+        let card = app.card.as_ref().expect("card");
+        assert_eq!(card.detail.summary.street.as_deref(), Some("Quill Lane"));
+        let text = screen(&mut app, &mut query, 100, 30);
+        assert!(text.contains("Quill Lane 111"), "{text}");
+        // The roster index knows the new street.
+        assert!(app.roster.data.streets.iter().any(|s| s == "Quill Lane"));
+        // Esc with typed changes asks first.
+        keys(&mut app, &mut query, "e");
+        keys(&mut app, &mut query, "x");
+        esc(&mut app, &mut query);
+        let text = screen(&mut app, &mut query, 80, 24);
+        assert!(text.contains("drop what is typed"), "{text}");
+        keys(&mut app, &mut query, "y");
+        let text = screen(&mut app, &mut query, 80, 24);
+        assert!(!text.contains("Edit tree 1"), "{text}");
+    }
+    let history = audit::entries_for_row(store.conn(), "trees", 1).expect("audit");
+    let last = history.last().expect("audited");
+    assert_eq!(last.action, "update");
+    assert_eq!(last.actor, "care (TUI)");
+    assert!(
+        last.before_json
+            .as_deref()
+            .is_some_and(|j| j.contains("Foundry Street"))
+    );
+    assert!(
+        last.after_json
+            .as_deref()
+            .is_some_and(|j| j.contains("Quill Lane"))
+    );
+    assert_eq!(store.measurement_count().expect("count"), measurements);
+}
+
+#[test]
+fn quitting_with_an_unsaved_assessment_asks_first() {
+    let mut store = demo_store();
+    let mut query = Query::new(&mut store);
+    let mut app = App::new(&query, AppSettings::default(), today()).expect("app");
+    key(&mut app, &mut query, KeyCode::Enter);
+    keys(&mut app, &mut query, "a");
+    keys(&mut app, &mut query, "w");
+    ctrl(&mut app, &mut query, 'q');
+    assert!(!app.should_quit());
+    let text = screen(&mut app, &mut query, 80, 24);
+    assert!(text.contains("risk assessment is not saved"), "{text}");
+    keys(&mut app, &mut query, "n");
+    esc(&mut app, &mut query);
+    let text = screen(&mut app, &mut query, 80, 24);
+    assert!(text.contains("drop what is entered"), "{text}");
+    keys(&mut app, &mut query, "y");
+    assert_eq!(app.view, View::Card);
+}

@@ -13,11 +13,17 @@ use ratatui::text::{Line, Span};
 use ratatui::widgets::{Block, Borders, Clear, Paragraph, Wrap};
 use tui_input::Input;
 
+mod care_flow;
+
 use super::query::Query;
+use super::views::assess_form;
+use super::views::care;
 use super::views::field_log::{self, FieldId, FormAction};
 use super::views::plan_view::{self, PlanAction};
 use super::views::roster::{self, Filter};
 use super::views::tree_card;
+use super::views::tree_edit;
+use super::views::work_form;
 use super::widgets::picker::{Outcome, Picker};
 use super::widgets::text;
 use crate::model::TreeStatus;
@@ -40,10 +46,19 @@ pub enum View {
     Card,
     FieldLog,
     Plan,
+    Care,
+    /// The risk assessment form (opened from the tree card or the care view; not a tab).
+    Assess,
 }
 
 impl View {
-    const ALL: [View; 4] = [View::Roster, View::Card, View::FieldLog, View::Plan];
+    const ALL: [View; 5] = [
+        View::Roster,
+        View::Card,
+        View::FieldLog,
+        View::Plan,
+        View::Care,
+    ];
 
     fn title(self) -> &'static str {
         match self {
@@ -51,8 +66,24 @@ impl View {
             View::Card => "2 Tree card",
             View::FieldLog => "3 Field log",
             View::Plan => "4 Plan view",
+            View::Care => "5 Care",
+            View::Assess => "Assess",
         }
     }
+
+    /// Views that take every key as typing (global keys need Ctrl or F-keys there).
+    fn is_form(self) -> bool {
+        matches!(self, View::FieldLog | View::Assess)
+    }
+}
+
+/// What a work-order dialog opened from the work queue does.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum WorkStep {
+    Schedule,
+    Done,
+    Cancel,
+    Edit,
 }
 
 /// What the user asked for.
@@ -81,6 +112,29 @@ pub enum Action {
     PlanKey(KeyEvent),
     /// A key for the open popup.
     PopupKey(KeyEvent),
+    /// Care view: move in the list shown.
+    CareMove(roster::Move),
+    /// Care view: show the other list.
+    CareToggle,
+    /// Care view: show this list.
+    CareShow(care::List),
+    CareFilter,
+    CareClearFilters,
+    CareOverdue,
+    /// Assess the tree of the card or of the care row.
+    StartAssess,
+    /// Add a work order to the tree of the card or of the care row.
+    StartAddWork,
+    /// Schedule, finish, cancel or edit the selected work order.
+    StartWork(WorkStep),
+    /// Edit the card's tree's attributes.
+    StartEditTree,
+    /// Show the card's tree's work orders in the work queue.
+    ShowTreeWork,
+    /// A key for the assessment form.
+    AssessKey(KeyEvent),
+    /// A key for the open dialog (work order, tree attributes).
+    DialogKey(KeyEvent),
 }
 
 /// What a picker popup chooses.
@@ -89,6 +143,14 @@ enum PickFor {
     Species,
     FilterKind,
     FilterValue(FilterKind),
+    CareFilterKind,
+    CareFilterValue(care::FilterKind),
+    /// A choice of the assessment form's focused field.
+    AssessChoice,
+    /// A choice of the dialog's focused field.
+    DialogChoice,
+    /// The species of the tree-attributes dialog.
+    EditSpecies,
 }
 
 /// Kinds of roster filter.
@@ -126,6 +188,24 @@ enum ConfirmFor {
     Quit,
     LeaveForm,
     Undo,
+    LeaveAssess,
+    CloseDialog,
+}
+
+/// A dialog drawn over the view (its keys come first, after a popup's).
+#[derive(Debug, Clone)]
+enum Dialog {
+    Work(Box<work_form::State>),
+    EditTree(Box<tree_edit::State>),
+}
+
+impl Dialog {
+    fn dirty(&self) -> bool {
+        match self {
+            Dialog::Work(d) => d.dirty,
+            Dialog::EditTree(d) => d.dirty,
+        }
+    }
 }
 
 #[derive(Debug, Clone)]
@@ -143,6 +223,10 @@ pub struct App {
     pub card: Option<tree_card::State>,
     pub form: field_log::State,
     pub plan: Option<plan_view::State>,
+    /// The care view (loaded when first shown).
+    pub care: Option<care::State>,
+    /// The assessment form in progress.
+    pub assess: Option<assess_form::State>,
     pub settings: AppSettings,
     pub file_label: String,
     pub message: Option<String>,
@@ -151,48 +235,138 @@ pub struct App {
     popup: Option<Popup>,
     /// Where the field log returns to.
     form_return: View,
+    /// Where Esc on the tree card goes.
+    card_return: View,
+    /// Where the assessment form returns to.
+    assess_return: View,
+    /// The assessor of the last saved assessment (the next form starts with it).
+    last_assessor: String,
+    dialog: Option<Dialog>,
+    /// The date care lists and forms are measured against.
+    today: chrono::NaiveDate,
     quit: bool,
 }
 
-/// Keys per view: (keys, what they do). Drives the footer and the help.
-pub fn keys_of(view: View) -> &'static [(&'static str, &'static str)] {
+/// One key of a view: the keys, a short label for the footer, and what they do (for the help).
+pub type KeyHelp = (&'static str, &'static str, &'static str);
+
+/// Keys per view. Drives the footer (short labels, as many as fit) and the help (every key).
+pub fn keys_of(view: View) -> &'static [KeyHelp] {
     match view {
         View::Roster => &[
-            ("↑↓ PgUp PgDn g G", "move"),
-            ("Enter", "tree card"),
-            ("/", "search uid, street, species"),
-            ("f F", "filter / clear filters"),
-            ("s r", "sort by next column / reverse"),
-            ("n", "new tree"),
-            ("m", "re-measure selected"),
+            ("↑↓ PgUp PgDn g G", "move", "move"),
+            ("Enter", "tree card", "tree card"),
+            ("/", "search", "search uid, street, species"),
+            ("f F", "filter", "filter / clear filters"),
+            ("s r", "sort", "sort by next column / reverse"),
+            ("n", "new tree", "new tree"),
+            ("m", "re-measure", "re-measure selected"),
         ],
         View::Card => &[
-            ("↑↓ PgUp PgDn", "scroll"),
-            ("m", "re-measure"),
-            ("x", "mark removed"),
-            ("Esc", "back to roster"),
+            ("↑↓ PgUp PgDn", "scroll", "scroll"),
+            ("a", "assess", "assess risk"),
+            ("w", "add work", "add a work order"),
+            (
+                "o",
+                "its work",
+                "this tree's work orders (schedule, done, cancel, edit)",
+            ),
+            ("e", "edit", "edit attributes (no measurement)"),
+            ("m", "re-measure", "re-measure"),
+            ("x", "removed", "mark removed"),
+            ("Esc", "back", "back"),
         ],
         View::FieldLog => &[
-            ("Tab ↑↓", "next / previous field"),
-            ("Enter", "species list (on species) / next field"),
-            ("Ctrl-S F2", "save"),
-            ("Esc", "leave"),
-            ("F1", "help"),
+            ("Tab ↑↓", "next / previous field", "next / previous field"),
+            (
+                "Enter",
+                "species list / next",
+                "species list (on species) / next field",
+            ),
+            ("Ctrl-S F2", "save", "save"),
+            ("Esc", "leave", "leave"),
+            ("F1", "help", "help"),
         ],
         View::Plan => &[
-            ("←↑↓→ hjkl", "pan"),
-            ("+ -", "zoom"),
-            ("c", "colour by"),
-            (".", "centre on selected tree"),
-            ("v", "area: first corner, then second"),
-            ("Enter", "card of the tree under ╋"),
+            ("←↑↓→ hjkl", "pan", "pan"),
+            ("+ -", "zoom", "zoom"),
+            ("c", "colour by", "colour by"),
+            (".", "centre on selected", "centre on selected tree"),
+            ("v", "area", "area: first corner, then second"),
+            ("Enter", "card under ╋", "card of the tree under ╋"),
+        ],
+        View::Care => &[
+            (
+                "Tab",
+                "switch list",
+                "switch list (w work queue, l watchlist)",
+            ),
+            ("Enter", "card", "tree card of the row"),
+            ("a", "assess", "assess the row's tree"),
+            (
+                "s d c e",
+                "order",
+                "work order: schedule / done / cancel / edit",
+            ),
+            ("n", "new order", "new work order for the row's tree"),
+            ("f F", "filter", "filter / clear filters"),
+            ("o", "overdue", "overdue only / all"),
+            ("↑↓ PgUp PgDn g G", "move", "move"),
+        ],
+        View::Assess => &[
+            ("Tab ↑↓", "field", "next / previous field"),
+            (
+                "← →",
+                "choose",
+                "change a choice (or type its first letter)",
+            ),
+            (
+                "Ctrl-S",
+                "save",
+                "save (F2 too; high or extreme: proposed work order)",
+            ),
+            ("Esc", "leave", "leave (asks if anything is typed)"),
+            ("Enter", "list", "list of choices / next field"),
+            ("Ctrl-N", "add mode", "add a failure mode"),
+            ("Ctrl-O", "add option", "add a mitigation option"),
+            ("Ctrl-D", "remove", "remove the focused mode or option"),
+            (
+                "Ctrl-U Ctrl-W",
+                "clear",
+                "clear the text field / its last word",
+            ),
+            (
+                "y e s",
+                "proposal",
+                "proposed order: create / edit / save without it",
+            ),
+            ("F1", "help", "help"),
         ],
     }
 }
 
+/// Keys of the work-order and tree-attributes dialogs.
+pub const DIALOG_KEYS: &[KeyHelp] = &[
+    ("Tab ↑↓", "field", "next / previous field"),
+    ("← →", "choose", "change a choice; Backspace clears it"),
+    (
+        "Ctrl-U Ctrl-W",
+        "clear",
+        "clear the text field / its last word",
+    ),
+    ("Ctrl-S", "save", "save (F2 too)"),
+    ("Esc", "close", "close (asks if anything is typed)"),
+    (
+        "Enter",
+        "list",
+        "list of choices (species list on species) / next field",
+    ),
+    ("F1", "help", "help"),
+];
+
 /// Keys that work everywhere except while typing in the field log.
 pub const GLOBAL_KEYS: &[(&str, &str)] = &[
-    ("1 2 3 4", "roster, tree card, field log, plan view"),
+    ("1 2 3 4 5", "roster, tree card, field log, plan view, care"),
     ("U", "metric / US units"),
     ("u", "undo the last change (asks first)"),
     ("?", "help"),
@@ -212,12 +386,19 @@ impl App {
             card: None,
             form: field_log::State::new(&query.species()?, today, settings.us_units),
             plan: None,
+            care: None,
+            assess: None,
             settings,
             file_label: query.file_label(),
             message: None,
             busy: false,
             popup: None,
             form_return: View::Roster,
+            card_return: View::Roster,
+            assess_return: View::Card,
+            last_assessor: String::new(),
+            dialog: None,
+            today,
             quit: false,
         })
     }
@@ -236,10 +417,12 @@ impl App {
         if self.popup.is_some() {
             return Some(Action::PopupKey(key));
         }
-        if self.view == View::FieldLog {
+        if self.dialog.is_some() || self.view.is_form() {
             return match key.code {
                 KeyCode::F(1) => Some(Action::ToggleHelp),
                 KeyCode::Char('q') if control => Some(Action::Quit),
+                _ if self.dialog.is_some() => Some(Action::DialogKey(key)),
+                _ if self.view == View::Assess => Some(Action::AssessKey(key)),
                 _ => Some(Action::FormKey(key)),
             };
         }
@@ -250,6 +433,7 @@ impl App {
             KeyCode::Char('2') => Some(Action::Show(View::Card)),
             KeyCode::Char('3') => Some(Action::NewTree),
             KeyCode::Char('4') => Some(Action::Show(View::Plan)),
+            KeyCode::Char('5') => Some(Action::Show(View::Care)),
             KeyCode::Char('U') => Some(Action::ToggleUnits),
             KeyCode::Char('u') => Some(Action::StartUndo),
             _ => None,
@@ -271,13 +455,33 @@ impl App {
                 _ => roster::handle_key(key).map(Action::Roster),
             },
             View::Card => match key.code {
-                KeyCode::Esc | KeyCode::Left => Some(Action::Show(View::Roster)),
+                KeyCode::Esc | KeyCode::Left => Some(Action::Show(self.card_return)),
                 KeyCode::Char('m') => Some(Action::Remeasure),
                 KeyCode::Char('x') => Some(Action::StartRemoval),
+                KeyCode::Char('a') => Some(Action::StartAssess),
+                KeyCode::Char('w') => Some(Action::StartAddWork),
+                KeyCode::Char('e') => Some(Action::StartEditTree),
+                KeyCode::Char('o') => Some(Action::ShowTreeWork),
                 _ => tree_card::handle_key(key).map(Action::Card),
             },
             View::Plan => Some(Action::PlanKey(key)),
-            View::FieldLog => None,
+            View::Care => match key.code {
+                KeyCode::Tab | KeyCode::BackTab => Some(Action::CareToggle),
+                KeyCode::Char('w') => Some(Action::CareShow(care::List::Work)),
+                KeyCode::Char('l') => Some(Action::CareShow(care::List::Watch)),
+                KeyCode::Enter => Some(Action::OpenCard),
+                KeyCode::Char('a') => Some(Action::StartAssess),
+                KeyCode::Char('n') => Some(Action::StartAddWork),
+                KeyCode::Char('s') => Some(Action::StartWork(WorkStep::Schedule)),
+                KeyCode::Char('d') => Some(Action::StartWork(WorkStep::Done)),
+                KeyCode::Char('c') => Some(Action::StartWork(WorkStep::Cancel)),
+                KeyCode::Char('e') => Some(Action::StartWork(WorkStep::Edit)),
+                KeyCode::Char('f') => Some(Action::CareFilter),
+                KeyCode::Char('F') => Some(Action::CareClearFilters),
+                KeyCode::Char('o') => Some(Action::CareOverdue),
+                _ => roster::handle_key(key).map(Action::CareMove),
+            },
+            View::FieldLog | View::Assess => None,
         }
     }
 
@@ -305,10 +509,21 @@ impl App {
     ) -> Result<(), StoreError> {
         match action {
             Action::Quit => {
-                if self.form.dirty {
+                let unsaved = [
+                    (self.form.dirty, "The field log has unsaved entries."),
+                    (
+                        self.assess.as_ref().is_some_and(|a| a.dirty),
+                        "The risk assessment is not saved.",
+                    ),
+                    (
+                        self.dialog.as_ref().is_some_and(Dialog::dirty),
+                        "The open dialog is not saved.",
+                    ),
+                ];
+                if let Some((_, what)) = unsaved.iter().find(|(dirty, _)| *dirty) {
                     self.popup = Some(Popup::Confirm(
                         ConfirmFor::Quit,
-                        "The field log has unsaved entries. Quit anyway? (y / n)".to_string(),
+                        format!("{what} Quit anyway? (y / n)"),
                     ));
                 } else {
                     self.quit = true;
@@ -330,6 +545,14 @@ impl App {
                 }
                 self.view = View::Plan;
             }
+            Action::Show(View::Care) => self.show_care(query)?,
+            Action::Show(View::Assess) => {
+                if self.assess.is_some() {
+                    self.view = View::Assess;
+                } else {
+                    self.message = Some("no assessment in progress".to_string());
+                }
+            }
             Action::Show(view) => self.view = view,
             Action::ToggleUnits => {
                 self.settings.us_units = !self.settings.us_units;
@@ -344,6 +567,7 @@ impl App {
                 ));
             }
             Action::Roster(movement) => self.roster.apply(movement),
+            Action::OpenCard if self.view == View::Care => self.open_care_card(query)?,
             Action::OpenCard => self.open_card(query)?,
             Action::NextSort => self.roster.next_sort(),
             Action::ReverseSort => self.roster.reverse_sort(),
@@ -415,6 +639,48 @@ impl App {
             Action::FormKey(key) => self.form_key(key, query, now)?,
             Action::PlanKey(key) => self.plan_key(key, query)?,
             Action::PopupKey(key) => self.popup_key(key, query, now)?,
+            Action::CareMove(movement) => {
+                if let Some(care) = &mut self.care {
+                    care.apply(movement);
+                }
+            }
+            Action::CareToggle => {
+                if let Some(care) = &mut self.care {
+                    care.toggle();
+                }
+            }
+            Action::CareShow(list) => {
+                if let Some(care) = &mut self.care {
+                    care.show(list);
+                }
+            }
+            Action::CareFilter => self.start_care_filter(),
+            Action::CareClearFilters => {
+                if let Some(care) = &mut self.care {
+                    care.clear_filters();
+                    self.message = Some("filters cleared".to_string());
+                }
+            }
+            Action::CareOverdue => {
+                if let Some(care) = &mut self.care {
+                    let on = care.toggle_overdue();
+                    self.message = Some(
+                        if on {
+                            "showing overdue rows only (o shows all)"
+                        } else {
+                            "showing all rows"
+                        }
+                        .to_string(),
+                    );
+                }
+            }
+            Action::StartAssess => self.start_assess(query)?,
+            Action::StartAddWork => self.start_add_work(query)?,
+            Action::StartWork(step) => self.start_work(step),
+            Action::StartEditTree => self.start_edit_tree(query)?,
+            Action::ShowTreeWork => self.show_tree_work(query)?,
+            Action::AssessKey(key) => self.assess_key(key, query, now)?,
+            Action::DialogKey(key) => self.dialog_key(key, query, now)?,
         }
         Ok(())
     }
@@ -424,6 +690,7 @@ impl App {
             self.message = Some("no tree selected".to_string());
             return Ok(());
         };
+        self.card_return = View::Roster;
         self.show_card(id, query)
     }
 
@@ -631,6 +898,8 @@ impl App {
                         self.view = self.form_return;
                     }
                     ConfirmFor::Undo => self.undo(query)?,
+                    ConfirmFor::LeaveAssess => self.leave_assess(query)?,
+                    ConfirmFor::CloseDialog => self.dialog = None,
                 },
                 KeyCode::Char('n') | KeyCode::Char('N') | KeyCode::Esc => {}
                 _ => self.popup = Some(Popup::Confirm(purpose, text)),
@@ -682,6 +951,7 @@ impl App {
             Some(change) => {
                 self.roster.reload(query.roster_index()?);
                 self.plan = None;
+                self.reload_care(query)?;
                 if let Some(id) = self.card.as_ref().map(|c| c.detail.summary.id) {
                     let view = self.view;
                     match query.tree_detail(id)? {
@@ -757,6 +1027,39 @@ impl App {
                     Picker::new(label, values, ""),
                 ));
             }
+            PickFor::CareFilterKind => {
+                let Some(care) = &self.care else { return };
+                let Some((kind, label)) = care.filter_kinds().get(index).copied() else {
+                    return;
+                };
+                let values = care.filter_values(kind);
+                self.popup = Some(Popup::Pick(
+                    PickFor::CareFilterValue(kind),
+                    Picker::new(label, values, ""),
+                ));
+            }
+            PickFor::CareFilterValue(kind) => {
+                if let Some(care) = &mut self.care {
+                    care.set_filter(kind, index);
+                }
+            }
+            PickFor::AssessChoice => {
+                if let Some(assess) = &mut self.assess {
+                    assess.choose(index);
+                }
+            }
+            PickFor::DialogChoice => match &mut self.dialog {
+                Some(Dialog::Work(d)) => d.choose(index),
+                Some(Dialog::EditTree(d)) => d.choose(index),
+                None => {}
+            },
+            PickFor::EditSpecies => {
+                if let Some(Dialog::EditTree(d)) = &mut self.dialog
+                    && let Some((botanical, _)) = d.species_names.get(index).cloned()
+                {
+                    d.set_species(&botanical);
+                }
+            }
             PickFor::FilterValue(kind) => {
                 let filter = match kind {
                     FilterKind::Species => Filter::Species(index as u32),
@@ -779,6 +1082,10 @@ impl App {
         // Tabs (1) + table border and header (3) + status (1) + footer (1).
         self.roster
             .set_height(terminal_height.saturating_sub(6) as usize);
+        // Care: tabs, status, footer, list switch (4) + counts and caution (2 each) + header (1).
+        if let Some(care) = &mut self.care {
+            care.set_height(terminal_height.saturating_sub(9) as usize);
+        }
     }
 
     /// Fetches what the visible view shows (the roster: only its visible rows), and takes in the
@@ -795,10 +1102,14 @@ impl App {
 
     /// Draws the whole screen from state.
     pub fn render(&self, frame: &mut Frame<'_>) {
+        // A long message takes a second line (the body gives it up while the message shows).
+        let status_height = self.message.as_ref().map_or(1, |m| {
+            text::wrapped_height(&format!(" {m}"), frame.area().width).clamp(1, 2)
+        });
         let [tabs, body, status, footer] = Layout::vertical([
             Constraint::Length(1),
             Constraint::Min(3),
-            Constraint::Length(1),
+            Constraint::Length(status_height),
             Constraint::Length(1),
         ])
         .areas(frame.area());
@@ -806,7 +1117,11 @@ impl App {
             " Streetwood ",
             Style::new().add_modifier(Modifier::BOLD),
         )];
-        for view in View::ALL {
+        let shown_tabs = View::ALL
+            .iter()
+            .copied()
+            .chain((self.view == View::Assess).then_some(View::Assess));
+        for view in shown_tabs {
             let title = view.title();
             if view == self.view {
                 spans.push(Span::styled(
@@ -838,29 +1153,71 @@ impl App {
                 }
                 _ => frame.render_widget(Paragraph::new("No tree has a position yet."), body),
             },
+            View::Care => match &self.care {
+                Some(care) => care::render(care, self.settings.no_color, frame, body),
+                None => {
+                    frame.render_widget(Paragraph::new("Press 5 to load the care lists."), body)
+                }
+            },
+            View::Assess => match &self.assess {
+                Some(assess) => assess_form::render(assess, self.settings.no_color, frame, body),
+                None => frame.render_widget(Paragraph::new("No assessment in progress."), body),
+            },
         }
         let status_line = match &self.message {
             Some(message) => Line::from(format!(" {message}")),
             None if self.view == View::Roster => roster::status_line(&self.roster),
+            None if self.view == View::Care => self
+                .care
+                .as_ref()
+                .map(care::status_line)
+                .unwrap_or_default(),
             None => Line::from(""),
         };
-        frame.render_widget(Paragraph::new(status_line), status);
-        frame.render_widget(Paragraph::new(footer_line(self.view)), footer);
+        frame.render_widget(
+            Paragraph::new(status_line).wrap(Wrap { trim: false }),
+            status,
+        );
+        let (keys, form) = match &self.dialog {
+            Some(_) => (DIALOG_KEYS, true),
+            None => (keys_of(self.view), self.view.is_form()),
+        };
+        frame.render_widget(
+            Paragraph::new(footer_line(keys, form, footer.width)),
+            footer,
+        );
+        match &self.dialog {
+            Some(Dialog::Work(d)) => work_form::render(d, frame, body),
+            Some(Dialog::EditTree(d)) => tree_edit::render(d, frame, body),
+            None => {}
+        }
         if let Some(popup) = &self.popup {
-            render_popup(popup, self.view, frame);
+            render_popup(popup, keys, form, frame);
         }
     }
 }
 
-fn footer_line(view: View) -> Line<'static> {
-    let mut spans = Vec::new();
-    let keys = keys_of(view).iter().take(4);
-    let tail: &[(&str, &str)] = if view == View::FieldLog {
+/// The footer: as many of the view's keys as fit, then help and quit (in forms: F1 help only).
+fn footer_line(keys: &[KeyHelp], form: bool, width: u16) -> Line<'static> {
+    let tail: &[(&str, &str)] = if form {
         &[]
     } else {
         &[("?", "help"), ("q", "quit")]
     };
-    for (key, what) in keys.chain(tail.iter()) {
+    let cell = |key: &str, what: &str| key.chars().count() + what.chars().count() + 4;
+    let tail_width: usize = tail.iter().map(|(k, w)| cell(k, w)).sum();
+    let mut room = usize::from(width).saturating_sub(tail_width);
+    let mut chosen = Vec::new();
+    for (key, short, _) in keys {
+        let needed = cell(key, short);
+        if needed > room {
+            break;
+        }
+        room -= needed;
+        chosen.push((*key, *short));
+    }
+    let mut spans = Vec::new();
+    for (key, what) in chosen.iter().chain(tail.iter()) {
         spans.push(Span::styled(
             format!(" {key} "),
             Style::new().add_modifier(Modifier::REVERSED),
@@ -881,7 +1238,7 @@ fn centred(area: Rect, width: u16, height: u16) -> Rect {
     }
 }
 
-fn render_popup(popup: &Popup, view: View, frame: &mut Frame<'_>) {
+fn render_popup(popup: &Popup, keys: &[KeyHelp], form: bool, frame: &mut Frame<'_>) {
     let area = frame.area();
     match popup {
         Popup::Help => {
@@ -889,23 +1246,33 @@ fn render_popup(popup: &Popup, view: View, frame: &mut Frame<'_>) {
                 "This view",
                 Style::new().add_modifier(Modifier::BOLD),
             ))];
-            for (key, what) in keys_of(view) {
+            for (key, _, what) in keys {
                 lines.push(Line::from(format!("  {key:<18} {what}")));
             }
-            lines.push(Line::from(Span::styled(
-                "Everywhere",
-                Style::new().add_modifier(Modifier::BOLD),
-            )));
-            for (key, what) in GLOBAL_KEYS {
-                lines.push(Line::from(format!("  {key:<18} {what}")));
+            if form {
+                lines.push(Line::from(
+                    "  Ctrl-Q Ctrl-C      quit (asks if anything is unsaved)",
+                ));
+            } else {
+                lines.push(Line::from(Span::styled(
+                    "Everywhere",
+                    Style::new().add_modifier(Modifier::BOLD),
+                )));
+                for (key, what) in GLOBAL_KEYS {
+                    lines.push(Line::from(format!("  {key:<18} {what}")));
+                }
+                lines.push(Line::from(
+                    "  Ctrl-C             quit at once (asks if anything is unsaved)",
+                ));
             }
-            lines.push(Line::from(
-                "  Ctrl-C             quit at once (asks if the field log has unsaved entries)",
-            ));
             lines.push(Line::from(""));
             lines.push(Line::from(crate::care::risk::CAUTION));
             lines.push(Line::from("Any key closes this help."));
-            let popup = centred(area, 76, lines.len() as u16 + 4);
+            let height: u16 = lines
+                .iter()
+                .map(|l| text::wrapped_height(&l.to_string(), 74))
+                .sum();
+            let popup = centred(area, 76, height + 2);
             frame.render_widget(Clear, popup);
             frame.render_widget(
                 Paragraph::new(lines)

@@ -6,10 +6,16 @@ use std::sync::mpsc::{Receiver, TryRecvError, channel};
 
 use chrono::{DateTime, NaiveDate, Utc};
 
+use crate::care::assessment::Assessment;
+use crate::care::queue::{WatchItem, WorkItem};
+use crate::care::risk::RiskRating;
+use crate::care::work::{NewWorkOrder, WorkChange};
 use crate::model::{Species, TreeRecord, TreeSummary};
 use crate::science::inventory::BenefitRow;
 use crate::spatial::ZoneIndex;
+use crate::store::care::{RecordedAssessment, WorkOutcome};
 use crate::store::roster::{RosterIndexData, TreeDetail};
+use crate::store::tree_edit::{TreeEditOutcome, TreeEditText};
 use crate::store::trees::TreeImportRow;
 use crate::store::{Store, StoreError};
 
@@ -209,6 +215,84 @@ impl<'a> Query<'a> {
     ) -> Result<Option<crate::store::undo::Change>, StoreError> {
         self.forget_benefits();
         self.store.undo_last(actor)
+    }
+
+    /// The watchlist's rows: every standing tree with its latest assessment.
+    pub fn watch_items(&self) -> Result<Vec<WatchItem>, StoreError> {
+        self.store.watch_items()
+    }
+
+    /// The work queue's rows: every work order, whatever its status (the view filters).
+    pub fn work_items(&self) -> Result<Vec<WorkItem>, StoreError> {
+        self.store.work_items(&[])
+    }
+
+    /// The currency of costs (setting `currency`).
+    pub fn currency(&self) -> Result<String, StoreError> {
+        Ok(self.store.setting("currency")?.unwrap_or_default())
+    }
+
+    /// Months to the next inspection per rating (settings `reinspect_months_*`).
+    pub fn reinspection_intervals(&self) -> Result<Vec<(RiskRating, u32)>, StoreError> {
+        self.store.reinspection_intervals()
+    }
+
+    /// Records an evaluated assessment of a tree and, when given, the work order it calls for, in one
+    /// transaction (see [`Store::record_assessment`]).
+    pub fn record_assessment(
+        &mut self,
+        tree_id: i64,
+        assessment: &Assessment,
+        work: Option<&NewWorkOrder>,
+        actor: &str,
+        now: DateTime<Utc>,
+    ) -> Result<RecordedAssessment, StoreError> {
+        self.store
+            .record_assessment(tree_id, assessment, work, actor, now)
+    }
+
+    /// Adds a work order (checked against its tree); returns its id.
+    pub fn add_work_order(
+        &mut self,
+        order: &NewWorkOrder,
+        actor: &str,
+        now: DateTime<Utc>,
+    ) -> Result<i64, StoreError> {
+        self.store.add_work_order(order, actor, now)
+    }
+
+    /// Changes a work order by the life-cycle rules (a removal done marks the tree removed).
+    pub fn change_work_order(
+        &mut self,
+        order_id: i64,
+        change: &WorkChange,
+        today: NaiveDate,
+        actor: &str,
+        now: DateTime<Utc>,
+    ) -> Result<WorkOutcome, StoreError> {
+        let outcome = self
+            .store
+            .change_work_order(order_id, change, today, actor, now)?;
+        if outcome.tree_removed_on.is_some() {
+            self.forget_benefits();
+        }
+        Ok(outcome)
+    }
+
+    /// Changes a tree's attributes without adding a measurement (see [`Store::edit_tree`]).
+    pub fn edit_tree(
+        &mut self,
+        tree_id: i64,
+        text: &TreeEditText,
+        today: NaiveDate,
+        actor: &str,
+        now: DateTime<Utc>,
+    ) -> Result<TreeEditOutcome, StoreError> {
+        let outcome = self.store.edit_tree(tree_id, text, today, actor, now)?;
+        if outcome.changed {
+            self.forget_benefits();
+        }
+        Ok(outcome)
     }
 
     /// Drops computed benefits after a write (a running computation's result is ignored).

@@ -1,4 +1,5 @@
-//! Widgets shared by the views: a fuzzy picker and single-line text fields.
+//! Widgets shared by the views: a fuzzy picker, single-line text fields and small keyboard forms.
 
+pub mod form;
 pub mod picker;
 pub mod text;

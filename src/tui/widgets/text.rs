@@ -33,3 +33,44 @@ pub fn with_cursor(input: &Input) -> String {
     out.extend(value.chars().skip(cursor));
     out
 }
+
+/// How many lines `text` takes when word-wrapped to `width` columns (greedy, as a wrapped paragraph
+/// lays it out; a word longer than the width is cut).
+pub fn wrapped_height(text: &str, width: u16) -> u16 {
+    let width = usize::from(width.max(1));
+    let mut lines = 0u16;
+    for paragraph in text.split('\n') {
+        let mut used = 0usize;
+        lines = lines.saturating_add(1);
+        for word in paragraph.split_whitespace() {
+            let length = word.chars().count();
+            if used == 0 {
+                used = length;
+            } else if used + 1 + length <= width {
+                used += 1 + length;
+            } else {
+                lines = lines.saturating_add(1);
+                used = length;
+            }
+            while used > width {
+                lines = lines.saturating_add(1);
+                used -= width;
+            }
+        }
+    }
+    lines
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn wrapped_height_counts_greedy_lines() {
+        assert_eq!(wrapped_height("", 10), 1);
+        assert_eq!(wrapped_height("abc def", 7), 1);
+        assert_eq!(wrapped_height("abc def", 6), 2);
+        assert_eq!(wrapped_height("abc\ndef", 60), 2);
+        assert_eq!(wrapped_height("abcdefghij", 4), 3);
+    }
+}
