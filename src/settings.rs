@@ -18,6 +18,9 @@ pub fn default_pairs() -> Vec<(&'static str, String)> {
     // Maintenance cycle lengths (METHODS.md M10): `care cycle` reads them.
     pairs.extend(crate::care::cycles::default_setting_pairs());
     pairs.extend(science_pairs());
+    // Removal studies (METHODS.md M11, M12; discount rate and carbon decay share: see
+    // `study::settings::StudySettings`).
+    pairs.extend(crate::study::settings::StudySettings::default_pairs());
     pairs
 }
 
@@ -38,6 +41,13 @@ pub fn validate(key: &str, value: &str) -> Result<(), String> {
     if crate::science::settings::KEYS.contains(&key) {
         let mut science = crate::science::settings::ScienceSettings::default();
         return science
+            .apply(key, value)
+            .map(|_| ())
+            .map_err(|e| format!("{key} = '{value}': {}", e.reason));
+    }
+    if crate::study::settings::KEYS.contains(&key) {
+        let mut study = crate::study::settings::StudySettings::default();
+        return study
             .apply(key, value)
             .map(|_| ())
             .map_err(|e| format!("{key} = '{value}': {}", e.reason));

@@ -74,19 +74,7 @@ impl From<SummaryBy> for GroupBy {
 
 /// One line stating the year, station and prices behind the value column.
 pub fn basis_line(run: &YearRun) -> String {
-    let p = &run.prices;
-    format!(
-        "year {}, weather of station '{}' ({} days held); value = the year's flows at {} {:.2}/t CO2e, {:.2}/m³ stormwater, {:.2}/kWh electricity × cooling share {} (COP {})",
-        run.year,
-        run.station.name,
-        run.days_held,
-        p.currency,
-        p.co2_per_t,
-        p.water_per_m3,
-        p.electricity_per_kwh,
-        p.cooling_value_share,
-        p.cop
-    )
+    run.basis_line()
 }
 
 fn warn_partial_year(run: &YearRun) {

@@ -1,6 +1,6 @@
 //! `streetwood care assess|list|history|cycle`: risk assessments, the watchlist and maintenance-cycle
 //! work, over [`crate::care`] (the rules) and [`crate::store`]. Every risk output carries
-//! [`CAUTION`](crate::care::risk::CAUTION).
+//! [`crate::care::risk::CAUTION`].
 
 use std::io::Write;
 use std::path::{Path, PathBuf};

@@ -10,6 +10,7 @@ pub mod export;
 pub mod history;
 pub mod import;
 pub mod report;
+pub mod study;
 pub mod synthetic;
 pub mod work;
 
@@ -118,6 +119,9 @@ pub enum Command {
     /// Work orders and the work queue.
     #[command(subcommand)]
     Work(work::WorkCommand),
+    /// Removal studies: what removing trees costs over decades, against replanting plans.
+    #[command(subcommand)]
+    Study(study::StudyCommand),
     /// Every change of a tree and its records (measurements, assessments, work orders), with before and after.
     History {
         /// The tree: its id, uid, or a unique uid prefix (6+ characters).
@@ -249,6 +253,7 @@ pub fn run(
         Command::Settings(command) => admin::settings(&inventory_path(cli)?, command),
         Command::Care(command) => care::run(&inventory_path(cli)?, command, now),
         Command::Work(command) => work::run(&inventory_path(cli)?, command, now),
+        Command::Study(command) => study::run(&inventory_path(cli)?, command, now),
     }
 }
 

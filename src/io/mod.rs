@@ -9,6 +9,7 @@ pub mod species_lookup;
 pub mod trees_csv;
 pub mod trees_geojson;
 pub mod weather_csv;
+pub mod year_report;
 pub mod zones_geojson;
 
 use std::fmt;

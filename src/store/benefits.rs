@@ -132,6 +132,25 @@ pub struct YearRun {
     pub standing_trees: usize,
 }
 
+impl YearRun {
+    /// One line stating the year, station and prices behind the value column.
+    pub fn basis_line(&self) -> String {
+        let p = &self.prices;
+        format!(
+            "year {}, weather of station '{}' ({} days held); value = the year's flows at {} {:.2}/t CO2e, {:.2}/m³ stormwater, {:.2}/kWh electricity × cooling share {} (COP {})",
+            self.year,
+            self.station.name,
+            self.days_held,
+            p.currency,
+            p.co2_per_t,
+            p.water_per_m3,
+            p.electricity_per_kwh,
+            p.cooling_value_share,
+            p.cop
+        )
+    }
+}
+
 /// The engine's settings from the inventory's settings table.
 fn science_settings(store: &Store) -> Result<ScienceSettings, StoreError> {
     let pairs = store.settings()?;

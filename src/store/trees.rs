@@ -69,11 +69,17 @@ impl Store {
         // 100,000 trees). The usual cache is restored afterwards.
         let big = rows.len() > 10_000;
         if big {
-            self.conn.pragma_update(None, "cache_size", BULK_CACHE_KIB)?;
+            self.conn
+                .pragma_update(None, "cache_size", BULK_CACHE_KIB)?;
         }
-        let result = if dry_run { self.dry_run(actor, work) } else { self.write(actor, work) };
+        let result = if dry_run {
+            self.dry_run(actor, work)
+        } else {
+            self.write(actor, work)
+        };
         if big {
-            self.conn.pragma_update(None, "cache_size", super::CACHE_KIB)?;
+            self.conn
+                .pragma_update(None, "cache_size", super::CACHE_KIB)?;
         }
         result
     }
