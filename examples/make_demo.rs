@@ -36,6 +36,8 @@ const TOWN: &str = "Wendlemoor";
 const STATION: &str = "Wendlemoor Waterworks";
 const STATION_ELEVATION_M: f64 = 262.0;
 const WEATHER_YEAR: i64 = 2025;
+/// Years of daily weather written to `weather.csv` (the first is summarised in the README).
+const WEATHER_YEARS: [i64; 2] = [2025, 2026];
 /// Origin of the local metric grid (arbitrary coordinates, mid-latitude northern hemisphere).
 const LAT0: f64 = 42.7;
 const LON0: f64 = -84.1;
@@ -1297,10 +1299,18 @@ struct WeatherSummary {
     missing_rh: usize,
 }
 
-fn make_weather(seed: u64, lat: f64) -> Res<(Vec<Day>, WeatherSummary)> {
-    let mut g = stream(seed, 2);
-    let first = Date::ymd(WEATHER_YEAR, 1, 1);
-    let n = (Date::ymd(WEATHER_YEAR + 1, 1, 1).0 - first.0) as usize;
+fn make_weather(seed: u64, lat: f64, year: i64) -> Res<(Vec<Day>, WeatherSummary)> {
+    // The first year keeps stream 2 (its file is unchanged); later years draw from their own streams.
+    let mut g = stream(
+        seed,
+        if year == WEATHER_YEAR {
+            2
+        } else {
+            100 + (year - WEATHER_YEAR) as u64
+        },
+    );
+    let first = Date::ymd(year, 1, 1);
+    let n = (Date::ymd(year + 1, 1, 1).0 - first.0) as usize;
     // wet/dry days: a two-state Markov chain; amounts: gamma, a little heavier in summer, scaled
     // to 850 mm. The whole year is redrawn until it looks typical (rain days, every month wet
     // enough, a few heavy storms), so the demo never shows a freak drought or deluge.
@@ -1406,8 +1416,8 @@ fn make_weather(seed: u64, lat: f64) -> Res<(Vec<Day>, WeatherSummary)> {
         });
     }
     // frost dates: last spring frost ~20 April, first autumn frost ~18 October
-    let last_spring = Date::ymd(WEATHER_YEAR, 4, g.random_range(17..=23));
-    let first_autumn = Date::ymd(WEATHER_YEAR, 10, g.random_range(15..=21));
+    let last_spring = Date::ymd(year, 4, g.random_range(17..=23));
+    let first_autumn = Date::ymd(year, 10, g.random_range(15..=21));
     for d in days.iter_mut() {
         if d.date == last_spring || d.date == first_autumn {
             if d.tmin > -0.5 {
@@ -1449,14 +1459,14 @@ fn make_weather(seed: u64, lat: f64) -> Res<(Vec<Day>, WeatherSummary)> {
     let frost = |d: &&Day| d.tmin < 0.0;
     let lsf = days
         .iter()
-        .filter(|d| d.date < Date::ymd(WEATHER_YEAR, 8, 1))
+        .filter(|d| d.date < Date::ymd(year, 8, 1))
         .filter(frost)
         .map(|d| d.date)
         .max()
         .ok_or("no spring frost")?;
     let faf = days
         .iter()
-        .filter(|d| d.date >= Date::ymd(WEATHER_YEAR, 8, 1))
+        .filter(|d| d.date >= Date::ymd(year, 8, 1))
         .filter(frost)
         .map(|d| d.date)
         .min()
@@ -2250,7 +2260,10 @@ fn main() -> Res<()> {
     let trees = make_trees(seed, &streets, &zones)?;
     check_trees(&trees)?;
     let (station_lon, station_lat) = to_lonlat(820.0, 310.0);
-    let (days, wx) = make_weather(seed, station_lat)?;
+    let (mut days, wx) = make_weather(seed, station_lat, WEATHER_YEAR)?;
+    for year in WEATHER_YEARS.iter().skip(1) {
+        days.extend(make_weather(seed, station_lat, *year)?.0);
+    }
     let assessments = make_assessments(seed, &trees);
     let orders = make_work_orders(seed, &trees, &assessments);
 
@@ -2538,7 +2551,8 @@ Riverbend, Upper Terraces) meet along street centre lines. Tree sizes follow the
     );
     let _ = writeln!(
         s,
-        "| `weather.csv` | one row per day of {WEATHER_YEAR} at the town's station |"
+        "| `weather.csv` | one row per day of {} at the town's station |",
+        WEATHER_YEARS.map(|y| y.to_string()).join(" and ")
     );
     let _ = writeln!(
         s,

@@ -40,11 +40,11 @@ fn benefits_has_the_design_columns_and_summaries_sum_the_rows() {
         )
     );
     assert!(
-        stderr(&output).contains("year 2025"),
+        stderr(&output).contains("year 2026"),
         "the basis line states the year and prices"
     );
     assert!(
-        stderr(&output).contains("USD 210.00/t CO2e"),
+        stderr(&output).contains("USD 214.00/t CO2e"),
         "{}",
         stderr(&output)
     );
@@ -110,7 +110,7 @@ fn benefits_has_the_design_columns_and_summaries_sum_the_rows() {
     let json: serde_json::Value = serde_json::from_str(&stdout(&output)).expect("json");
     let carbon = json["total"]["carbon_kg"].as_f64().expect("carbon");
     assert!((carbon - sum("carbon_kg")).abs() <= 1e-4 * carbon);
-    assert_eq!(json["prices"]["year"], 2025);
+    assert_eq!(json["prices"]["year"], 2026);
 
     let output = run(
         dir.path(),
@@ -154,14 +154,16 @@ fn demo_totals_are_within_published_urban_bounds() {
         "sequestered {seq_per_m2} kg C/m²/yr"
     );
 
-    // Demo weather 2025: gross rain over the year (demo-inventory/README.md states 851.5 mm).
+    // Gross rain of the year computed (the demo holds 2025 and 2026; the latest is the default).
     let weather = std::fs::read_to_string(concat!(
         env!("CARGO_MANIFEST_DIR"),
         "/demo-inventory/weather.csv"
     ))
     .expect("weather");
+    let year = json["prices"]["year"].as_i64().expect("year").to_string();
     let rain_mm: f64 = rows(&weather)
         .iter()
+        .filter(|r| r[0].starts_with(&year))
         .filter_map(|r| r[1].parse::<f64>().ok())
         .sum();
     let fraction =
@@ -224,7 +226,7 @@ fn a_year_without_weather_names_the_stations_and_years_held() {
     let err = stderr(&output);
     assert!(err.contains("no weather for 2019"), "{err}");
     assert!(
-        err.contains("'Wendlemoor Waterworks': 2025 (365 days)"),
+        err.contains("'Wendlemoor Waterworks': 2026 (365 days), 2025 (365 days)"),
         "{err}"
     );
 }

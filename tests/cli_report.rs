@@ -96,7 +96,7 @@ fn html_report_is_self_contained_well_formed_escaped_and_sums_the_rows() {
         html.contains("Chojnacky, Heath &amp; Jenkins 2014"),
         "the methods appendix"
     );
-    assert!(html.contains("Weather of 2025"));
+    assert!(html.contains("Weather of 2026"));
     // The carbon card equals the sum of the per-tree rows (tonnes, one decimal).
     let carbon_t = per_tree_sum(dir.path(), &db, "carbon_kg") / 1000.0;
     let shown = format!("{:.1}", carbon_t);
@@ -199,7 +199,7 @@ fn geojson_with_benefits_round_trips_every_tree_field() {
         .as_ref()
         .expect("properties");
     assert!(first["carbon_kg"].as_f64().is_some_and(|c| c > 0.0));
-    assert_eq!(first["benefits_year"], 2025);
+    assert_eq!(first["benefits_year"], 2026);
 
     let fresh = empty_inventory(dir.path());
     let output = run(

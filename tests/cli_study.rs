@@ -722,6 +722,8 @@ fn first_projected_year_matches_benefits_for_the_same_trees() {
             "measured by 2025",
             "--start-year",
             "2025",
+            "--weather-year",
+            "2025",
             "--horizon",
             "3",
         ],
