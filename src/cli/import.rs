@@ -111,6 +111,104 @@ fn report_bad_rows(file: &Path, bad: &[BadRow]) {
     }
 }
 
+/// Imports a trees CSV row by row in one transaction: every bad row is reported; without
+/// `--keep-good` one bad row rolls everything back (good rows after it are only checked, not written).
+fn import_csv_stream(
+    store: &mut Store,
+    file: &Path,
+    input: impl std::io::Read,
+    ctx: ValidationContext<'_>,
+    dry_run: bool,
+    rejects: Option<&Path>,
+    now: DateTime<Utc>,
+) -> Result<(), CliError> {
+    let rows = crate::io::trees_csv::TreeCsvRows::new(input, ctx)
+        .map_err(|e| CliError::Input(format!("{}:{}: {}", file.display(), e.line, e.reason)))?;
+    let headers = rows.headers().to_vec();
+    let zones = zone_index(store)?;
+    let keep_good = rejects.is_some();
+    let bad: std::cell::RefCell<Vec<BadRow>> = std::cell::RefCell::new(Vec::new());
+    let total = std::cell::Cell::new(0usize);
+    let mut good = rows.filter_map(|(line, row)| {
+        total.set(total.get() + 1);
+        match row {
+            Err(row) => {
+                bad.borrow_mut().push(row);
+                None
+            }
+            // Once a row is bad an all-or-nothing import will roll back: check the rest, write nothing.
+            Ok(_) if !keep_good && !bad.borrow().is_empty() => None,
+            Ok(record) => {
+                let zone_id = match (record.lon, record.lat) {
+                    (Some(lon), Some(lat)) => zones.zone_of(lon, lat),
+                    _ => None,
+                };
+                Some(TreeImportRow {
+                    line,
+                    record,
+                    zone_id,
+                })
+            }
+        }
+    });
+    let keep = || keep_good || bad.borrow().is_empty();
+    let result = store.import_tree_stream(&mut good, &keep, "import", now, dry_run);
+    drop(good);
+    let bad = bad.into_inner();
+    report_bad_rows(file, &bad);
+    let outcome = match result {
+        Err(crate::store::StoreError::Invalid(_)) if !bad.is_empty() && !keep_good => {
+            return Err(CliError::Input(format!(
+                "nothing was written: {} of {} rows have errors; fix them, or import the good rows with --keep-good --rejects FILE",
+                bad.len(),
+                total.get()
+            )));
+        }
+        Err(error) => return Err(prefix_file(file, error)),
+        Ok(outcome) => outcome,
+    };
+    if let (Some(path), false, false) = (rejects, bad.is_empty(), dry_run) {
+        let out = std::fs::File::create(path)
+            .map_err(|e| CliError::Input(format!("cannot write {}: {e}", path.display())))?;
+        write_rejects(out, &headers, &bad).map_err(anyhow::Error::from)?;
+    }
+    report_outcome(file, &outcome, dry_run, rejects, bad.len());
+    Ok(())
+}
+
+fn report_outcome(
+    file: &Path,
+    outcome: &crate::store::trees::ImportOutcome,
+    dry_run: bool,
+    rejects: Option<&Path>,
+    rejected: usize,
+) {
+    let verb = if dry_run { "would import" } else { "imported" };
+    eprintln!(
+        "{verb} {}: {} trees added, {} trees updated, {} measurements added, {} unchanged{}",
+        file.display(),
+        outcome.trees_added,
+        outcome.trees_updated,
+        outcome.measurements_added,
+        outcome.measurements_unchanged,
+        if dry_run {
+            " (dry run: nothing written)"
+        } else {
+            ""
+        }
+    );
+    if let (Some(path), true) = (rejects, rejected > 0) {
+        eprintln!(
+            "{rejected} rows rejected{}",
+            if dry_run {
+                String::new()
+            } else {
+                format!(", written with their reasons to {}", path.display())
+            }
+        );
+    }
+}
+
 fn import_trees(
     inventory: &Path,
     file: &Path,
@@ -119,13 +217,23 @@ fn import_trees(
     now: DateTime<Utc>,
 ) -> Result<(), CliError> {
     let mut store = open_store(inventory)?;
-    let bytes = read_file(file)?;
     let lookup = SpeciesLookup::new(&store.species()?);
     let ctx = ValidationContext {
         species: &lookup,
         today: now.date_naive(),
     };
-    let geojson = is_geojson(file, &bytes);
+    let opened = std::fs::File::open(file)
+        .map_err(|e| CliError::Input(format!("cannot read {}: {e}", file.display())))?;
+    let mut reader = std::io::BufReader::new(opened);
+    let first = std::io::BufRead::fill_buf(&mut reader)
+        .map_err(|e| CliError::Input(format!("cannot read {}: {e}", file.display())))?;
+    if !is_geojson(file, first) {
+        return import_csv_stream(&mut store, file, reader, ctx, dry_run, rejects, now);
+    }
+    let mut bytes = Vec::new();
+    std::io::Read::read_to_end(&mut reader, &mut bytes)
+        .map_err(|e| CliError::Input(format!("cannot read {}: {e}", file.display())))?;
+    let geojson = true;
     let parsed = if geojson {
         let text = std::str::from_utf8(&bytes)
             .map_err(|_| CliError::Input(format!("{} is not UTF-8 text", file.display())))?;
@@ -184,31 +292,7 @@ fn import_trees(
     let outcome = store
         .import_trees(&rows, "import", now, dry_run)
         .map_err(|e| prefix_file(file, e))?;
-    let verb = if dry_run { "would import" } else { "imported" };
-    eprintln!(
-        "{verb} {}: {} trees added, {} trees updated, {} measurements added, {} unchanged{}",
-        file.display(),
-        outcome.trees_added,
-        outcome.trees_updated,
-        outcome.measurements_added,
-        outcome.measurements_unchanged,
-        if dry_run {
-            " (dry run: nothing written)"
-        } else {
-            ""
-        }
-    );
-    if let (Some(path), false) = (rejects, parsed.bad.is_empty()) {
-        eprintln!(
-            "{} rows rejected{}",
-            parsed.bad.len(),
-            if dry_run {
-                String::new()
-            } else {
-                format!(", written with their reasons to {}", path.display())
-            }
-        );
-    }
+    report_outcome(file, &outcome, dry_run, rejects, parsed.bad.len());
     Ok(())
 }
 

@@ -457,82 +457,125 @@ pub fn read_trees_csv(
     input: impl Read,
     ctx: ValidationContext<'_>,
 ) -> Result<ParsedTrees, FileError> {
-    let mut reader = csv::ReaderBuilder::new().flexible(true).from_reader(input);
-    let headers: Vec<String> = reader
-        .headers()
-        .map_err(|e| FileError {
-            line: 1,
-            reason: e.to_string(),
-        })?
-        .iter()
-        .map(str::to_string)
-        .collect();
-    let columns = map_headers(&headers)?;
+    let mut rows = TreeCsvRows::new(input, ctx)?;
     let mut parsed = ParsedTrees {
-        headers: headers.clone(),
+        headers: rows.headers().to_vec(),
         ..ParsedTrees::default()
     };
-    for result in reader.records() {
-        let record = match result {
-            Ok(record) => record,
-            Err(e) => {
-                let line = e.position().map(|p| p.line()).unwrap_or(0);
-                parsed.bad.push(BadRow {
-                    line,
-                    raw: Vec::new(),
-                    errors: vec![RowError {
-                        line,
-                        field: "(row)".to_string(),
-                        reason: e.to_string(),
-                    }],
-                });
-                continue;
-            }
-        };
+    for (line, row) in &mut rows {
+        match row {
+            Ok(tree) => parsed.good.push((line, tree)),
+            Err(bad) => parsed.bad.push(bad),
+        }
+    }
+    Ok(parsed)
+}
+
+/// The rows of a trees CSV, validated one at a time (a million-row file never sits in memory).
+pub struct TreeCsvRows<'a, R: Read> {
+    records: csv::StringRecordsIntoIter<R>,
+    headers: Vec<String>,
+    columns: Vec<(Column, usize, f64)>,
+    ctx: ValidationContext<'a>,
+}
+
+impl<'a, R: Read> TreeCsvRows<'a, R> {
+    /// Reads and checks the header.
+    pub fn new(input: R, ctx: ValidationContext<'a>) -> Result<Self, FileError> {
+        let mut reader = csv::ReaderBuilder::new().flexible(true).from_reader(input);
+        let headers: Vec<String> = reader
+            .headers()
+            .map_err(|e| FileError {
+                line: 1,
+                reason: e.to_string(),
+            })?
+            .iter()
+            .map(str::to_string)
+            .collect();
+        let columns = map_headers(&headers)?;
+        Ok(TreeCsvRows {
+            records: reader.into_records(),
+            headers,
+            columns,
+            ctx,
+        })
+    }
+
+    /// The header as the file gives it.
+    pub fn headers(&self) -> &[String] {
+        &self.headers
+    }
+
+    fn row(&self, record: csv::StringRecord) -> (u64, Result<TreeRecord, BadRow>) {
         let line = record.position().map(|p| p.line()).unwrap_or(0);
         let raw: Vec<String> = record.iter().map(str::to_string).collect();
-        if raw.len() != headers.len() {
-            parsed.bad.push(BadRow {
+        if raw.len() != self.headers.len() {
+            let reason = format!(
+                "{} fields, but the header has {}",
+                raw.len(),
+                self.headers.len()
+            );
+            let errors = vec![RowError {
                 line,
-                errors: vec![RowError {
-                    line,
-                    field: "(row)".to_string(),
-                    reason: format!("{} fields, but the header has {}", raw.len(), headers.len()),
-                }],
-                raw,
-            });
-            continue;
+                field: "(row)".to_string(),
+                reason,
+            }];
+            return (line, Err(BadRow { line, errors, raw }));
         }
         let get = |column: Column| {
-            columns
+            self.columns
                 .iter()
                 .find(|(c, _, _)| *c == column)
                 .and_then(|(_, index, factor)| {
                     let text = raw.get(*index)?;
                     (!text.trim().is_empty()).then(|| FieldValue {
-                        field: headers[*index].as_str(),
+                        field: self.headers[*index].as_str(),
                         text,
                         to_si: *factor,
                     })
                 })
         };
-        match validate_tree_fields(get, ctx) {
-            Ok(tree) => parsed.good.push((line, tree)),
-            Err(errors) => parsed.bad.push(BadRow {
-                line,
-                errors: errors
+        match validate_tree_fields(get, self.ctx) {
+            Ok(tree) => (line, Ok(tree)),
+            Err(errors) => {
+                let errors = errors
                     .into_iter()
                     .map(|(field, reason)| RowError {
                         line,
                         field,
                         reason,
                     })
-                    .collect(),
-                raw,
-            }),
+                    .collect();
+                (line, Err(BadRow { line, errors, raw }))
+            }
         }
     }
-    Ok(parsed)
+}
+
+impl<R: Read> Iterator for TreeCsvRows<'_, R> {
+    type Item = (u64, Result<TreeRecord, BadRow>);
+
+    fn next(&mut self) -> Option<Self::Item> {
+        match self.records.next()? {
+            Ok(record) => Some(self.row(record)),
+            Err(e) => {
+                let line = e.position().map(|p| p.line()).unwrap_or(0);
+                let errors = vec![RowError {
+                    line,
+                    field: "(row)".to_string(),
+                    reason: e.to_string(),
+                }];
+                Some((
+                    line,
+                    Err(BadRow {
+                        line,
+                        raw: Vec::new(),
+                        errors,
+                    }),
+                ))
+            }
+        }
+    }
 }
 
 /// Maps header cells to columns: unknown or repeated columns and a missing `species` or DBH column
