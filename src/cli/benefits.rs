@@ -8,8 +8,8 @@ use serde_json::json;
 
 use super::{CliError, csv_error, open_store, with_output};
 use crate::io::csv_safe;
-use crate::science::inventory::{BenefitRow, GroupBy, SummaryRow, summarize};
-pub use crate::store::benefits::YearRun;
+use crate::science::inventory::{BenefitRow, GroupBy, Summarizer, SummaryRow};
+pub use crate::store::benefits::{YearRun, YearSetup};
 
 /// The `benefits` columns of DESIGN.md, in order, plus `estimated`.
 pub const BENEFIT_COLUMNS: [&str; 16] = [
@@ -78,22 +78,30 @@ pub fn basis_line(run: &YearRun) -> String {
 }
 
 fn warn_partial_year(run: &YearRun) {
-    let without = run.standing_trees - run.rows.len();
+    warn_year(
+        &run.station.name,
+        run.year,
+        run.days_held,
+        run.standing_trees,
+        run.rows.len(),
+    );
+}
+
+fn warn_year(station: &str, year: i32, days_held: i64, standing: usize, rows: usize) {
+    let without = standing.saturating_sub(rows);
     if without > 0 {
         eprintln!(
-            "note: {without} of {} standing trees have no measurement dated in or before {} and have no row",
-            run.standing_trees, run.year
+            "note: {without} of {standing} standing trees have no measurement dated in or before {year} and have no row"
         );
     }
-    let in_year = if chrono::NaiveDate::from_ymd_opt(run.year, 2, 29).is_some() {
+    let in_year = if chrono::NaiveDate::from_ymd_opt(year, 2, 29).is_some() {
         366
     } else {
         365
     };
-    if run.days_held < in_year {
+    if days_held < in_year {
         eprintln!(
-            "warning: station '{}' holds {} of {in_year} days of {}; missing days count as dry with no ET0",
-            run.station.name, run.days_held, run.year
+            "warning: station '{station}' holds {days_held} of {in_year} days of {year}; missing days count as dry with no ET0"
         );
     }
 }
@@ -120,55 +128,78 @@ pub fn benefits(
     out: Option<&PathBuf>,
 ) -> Result<(), CliError> {
     let store = open_store(inventory)?;
-    let run = store.year_benefits(year)?;
-    warn_partial_year(&run);
-    eprintln!("{}", basis_line(&run));
-    with_output(out.map(PathBuf::as_path), inventory, |sink| match format {
-        BenefitsFormat::Csv => write_benefits_csv(sink, &run.rows),
-        BenefitsFormat::Json => {
-            let trees: Vec<_> = run.rows.iter().map(benefit_json).collect();
-            let document = json!({
-                "year": run.year,
-                "station": run.station.name,
-                "prices": run.prices,
-                "caution": crate::care::risk::CAUTION,
-                "trees": trees,
-            });
-            serde_json::to_writer_pretty(&mut *sink, &document).map_err(anyhow::Error::from)?;
-            writeln!(sink)?;
-            Ok(())
+    let setup = store.year_setup(year)?;
+    eprintln!("{}", setup.basis_line());
+    let mut rows = 0usize;
+    let mut standing = 0usize;
+    with_output(out.map(PathBuf::as_path), inventory, |sink| {
+        match format {
+            BenefitsFormat::Csv => {
+                let mut writer = csv::Writer::from_writer(sink);
+                writer.write_record(BENEFIT_COLUMNS).map_err(csv_error)?;
+                standing = store.for_each_benefit(&setup, |row| {
+                    rows += 1;
+                    writer.write_record(benefit_cells(&row)).map_err(csv_error)
+                })?;
+                writer.flush()?;
+            }
+            BenefitsFormat::Json => {
+                // Streamed: the header fields, then one tree at a time.
+                let head = json!({
+                    "year": setup.year,
+                    "station": setup.station.name,
+                    "prices": setup.prices,
+                    "caution": crate::care::risk::CAUTION,
+                });
+                let head = serde_json::to_string_pretty(&head).map_err(anyhow::Error::from)?;
+                write!(
+                    sink,
+                    "{},\n  \"trees\": [",
+                    head.trim_end().trim_end_matches('}').trim_end()
+                )?;
+                standing = store.for_each_benefit(&setup, |row| {
+                    let separator = if rows == 0 { "\n    " } else { ",\n    " };
+                    rows += 1;
+                    write!(sink, "{separator}")?;
+                    serde_json::to_writer(&mut *sink, &benefit_json(&row))
+                        .map_err(anyhow::Error::from)?;
+                    Ok::<(), CliError>(())
+                })?;
+                writeln!(sink, "\n  ]\n}}")?;
+            }
         }
-    })
+        Ok(())
+    })?;
+    warn_year(
+        &setup.station.name,
+        setup.year,
+        setup.days_held,
+        standing,
+        rows,
+    );
+    Ok(())
 }
 
-fn write_benefits_csv(sink: &mut dyn Write, rows: &[BenefitRow]) -> Result<(), CliError> {
-    let mut writer = csv::Writer::from_writer(sink);
-    writer.write_record(BENEFIT_COLUMNS).map_err(csv_error)?;
-    for row in rows {
-        let b = &row.benefits;
-        writer
-            .write_record([
-                row.tree_id.to_string(),
-                csv_safe(&row.uid).into_owned(),
-                csv_safe(&row.species).into_owned(),
-                number(b.dbh_cm),
-                option(b.height_m),
-                option(b.crown_width_m),
-                number(b.leaf_area_m2),
-                number(b.biomass_kg),
-                number(b.carbon_kg),
-                number(b.co2e_kg),
-                number(b.co2e_seq_kg_yr),
-                number(b.interception_m3_yr),
-                number(b.transpiration_m3_yr),
-                number(b.cooling_kwh_yr),
-                number(b.value),
-                row.estimated().join(";"),
-            ])
-            .map_err(csv_error)?;
-    }
-    writer.flush()?;
-    Ok(())
+fn benefit_cells(row: &BenefitRow) -> [String; 16] {
+    let b = &row.benefits;
+    [
+        row.tree_id.to_string(),
+        csv_safe(&row.uid).into_owned(),
+        csv_safe(&row.species).into_owned(),
+        number(b.dbh_cm),
+        option(b.height_m),
+        option(b.crown_width_m),
+        number(b.leaf_area_m2),
+        number(b.biomass_kg),
+        number(b.carbon_kg),
+        number(b.co2e_kg),
+        number(b.co2e_seq_kg_yr),
+        number(b.interception_m3_yr),
+        number(b.transpiration_m3_yr),
+        number(b.cooling_kwh_yr),
+        number(b.value),
+        row.estimated().join(";"),
+    ]
 }
 
 fn benefit_json(row: &BenefitRow) -> serde_json::Value {
@@ -220,12 +251,28 @@ pub fn summary(
     top: usize,
 ) -> Result<(), CliError> {
     let store = open_store(inventory)?;
-    let run = store.year_benefits(year)?;
-    warn_partial_year(&run);
     if format == SummaryFormat::Html {
+        let run = store.year_benefits(year)?;
+        warn_partial_year(&run);
         return super::report::write(&store, &run, top, out.map(PathBuf::as_path), inventory);
     }
-    let (mut groups, total) = summarize(&run.rows, by.into());
+    let setup = store.year_setup(year)?;
+    let mut summarizer = Summarizer::new(by.into());
+    let mut rows = 0usize;
+    let standing = store.for_each_benefit(&setup, |row| {
+        rows += 1;
+        summarizer.add(&row);
+        Ok::<(), CliError>(())
+    })?;
+    warn_year(
+        &setup.station.name,
+        setup.year,
+        setup.days_held,
+        standing,
+        rows,
+    );
+    let run = &setup;
+    let (mut groups, total) = summarizer.finish();
     if by == SummaryBy::None {
         // One group of everything is the total itself.
         groups.clear();
@@ -260,7 +307,7 @@ pub fn summary(
             writeln!(sink)?;
             Ok(())
         }
-        SummaryFormat::Md => write_summary_md(sink, &run, by, &groups, &total),
+        SummaryFormat::Md => write_summary_md(sink, run, by, &groups, &total),
         SummaryFormat::Html => Ok(()),
     })
 }
@@ -271,7 +318,7 @@ fn md_cell(text: &str) -> String {
 
 fn write_summary_md(
     sink: &mut dyn Write,
-    run: &YearRun,
+    run: &YearSetup,
     by: SummaryBy,
     groups: &[SummaryRow],
     total: &SummaryRow,
@@ -285,7 +332,7 @@ fn write_summary_md(
         SummaryBy::None => "group",
     };
     writeln!(sink, "# Street-tree benefits, {}\n", run.year)?;
-    writeln!(sink, "{}.\n", basis_line(run))?;
+    writeln!(sink, "{}.\n", run.basis_line())?;
     let mut header = format!("| {by_label} | trees |");
     let mut rule = "|---|---:|".to_string();
     for (name, unit, _) in SUMMARY_COLUMNS {

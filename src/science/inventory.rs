@@ -106,23 +106,74 @@ fn latest_until(measurements: &[Measurement], until: NaiveDate) -> Option<&Measu
 /// The imputer of METHODS.md M3 from the latest measurement (dated in or before the year) of every
 /// standing tree.
 pub fn build_imputer(trees: &[InventoryTree], species: &[SpeciesParams], year: i32) -> Imputer {
-    let until = year_end(year);
-    Imputer::from_rows(
-        trees
-            .iter()
-            .filter(|t| t.status == TreeStatus::Standing)
-            .filter_map(|t| {
-                let params = species.get(t.species_index)?;
-                let latest = latest_until(&t.measurements, until)?;
-                Some(ImputerRow {
-                    species_key: &params.key,
-                    genus: &params.genus,
-                    dbh_cm: latest.dbh_cm(),
-                    height_m: latest.height_m,
-                    crown_width_m: mean_crown_width_m(latest.crown_width_m, latest.crown_width2_m),
-                })
-            }),
-    )
+    let samples: Vec<ImputerSample> = trees
+        .iter()
+        .filter_map(|t| imputer_sample(t, year))
+        .collect();
+    imputer_from_samples(&samples, species)
+}
+
+/// What one tree adds to the imputer: its species (index) and its latest DBH, height and mean crown
+/// width dated in or before the year. Small, so a million of them fit in memory while trees stream.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ImputerSample {
+    pub species_index: usize,
+    pub dbh_cm: f64,
+    pub height_m: Option<f64>,
+    pub crown_width_m: Option<f64>,
+}
+
+/// The imputer sample of a standing tree, if it has a measurement up to the year.
+pub fn imputer_sample(tree: &InventoryTree, year: i32) -> Option<ImputerSample> {
+    if tree.status != TreeStatus::Standing {
+        return None;
+    }
+    let latest = latest_until(&tree.measurements, year_end(year))?;
+    Some(ImputerSample {
+        species_index: tree.species_index,
+        dbh_cm: latest.dbh_cm(),
+        height_m: latest.height_m,
+        crown_width_m: mean_crown_width_m(latest.crown_width_m, latest.crown_width2_m),
+    })
+}
+
+/// The imputer built from samples.
+pub fn imputer_from_samples(samples: &[ImputerSample], species: &[SpeciesParams]) -> Imputer {
+    Imputer::from_rows(samples.iter().filter_map(|sample| {
+        let params = species.get(sample.species_index)?;
+        Some(ImputerRow {
+            species_key: &params.key,
+            genus: &params.genus,
+            dbh_cm: sample.dbh_cm,
+            height_m: sample.height_m,
+            crown_width_m: sample.crown_width_m,
+        })
+    }))
+}
+
+/// One tree's benefit row for the context's year (`None` when not standing or not measured by then).
+pub fn benefit_row(
+    tree: &InventoryTree,
+    species: &[SpeciesParams],
+    ctx: &YearContext<'_>,
+) -> Option<BenefitRow> {
+    let params = species.get(tree.species_index)?;
+    let input = TreeInput {
+        species: params,
+        site_kind: tree.site_kind,
+        status: tree.status,
+        measurements: &tree.measurements,
+    };
+    let benefits = tree_year(&input, ctx).ok()?;
+    Some(BenefitRow {
+        tree_id: tree.tree_id,
+        uid: tree.uid.clone(),
+        species: params.key.clone(),
+        street: tree.street.clone(),
+        zone: tree.zone.clone(),
+        condition: ConditionBand::from_dieback(benefits.detail.dieback_pct),
+        benefits,
+    })
 }
 
 fn year_end(year: i32) -> NaiveDate {
@@ -141,25 +192,7 @@ pub fn compute_year(
     let ctx = YearContext::new(&imputer, weather, settings);
     trees
         .iter()
-        .filter_map(|tree| {
-            let params = species.get(tree.species_index)?;
-            let input = TreeInput {
-                species: params,
-                site_kind: tree.site_kind,
-                status: tree.status,
-                measurements: &tree.measurements,
-            };
-            let benefits = tree_year(&input, &ctx).ok()?;
-            Some(BenefitRow {
-                tree_id: tree.tree_id,
-                uid: tree.uid.clone(),
-                species: params.key.clone(),
-                street: tree.street.clone(),
-                zone: tree.zone.clone(),
-                condition: ConditionBand::from_dieback(benefits.detail.dieback_pct),
-                benefits,
-            })
-        })
+        .filter_map(|tree| benefit_row(tree, species, &ctx))
         .collect()
 }
 
@@ -264,49 +297,83 @@ fn group_of(row: &BenefitRow, by: GroupBy) -> String {
 /// Groups sorted by descending stored carbon (condition bands in band order), and the total of all
 /// rows. Rows are added in their given order, so totals are reproducible to the last bit.
 pub fn summarize(rows: &[BenefitRow], by: GroupBy) -> (Vec<SummaryRow>, SummaryRow) {
-    let mut groups: Vec<SummaryRow> = Vec::new();
-    let mut index: std::collections::HashMap<String, usize> = std::collections::HashMap::new();
-    let mut total = SummaryRow {
-        group: "total".to_string(),
-        ..SummaryRow::default()
-    };
+    let mut summary = Summarizer::new(by);
     for row in rows {
-        let key = group_of(row, by);
-        let slot = *index.entry(key.clone()).or_insert_with(|| {
-            groups.push(SummaryRow {
-                group: key,
+        summary.add(row);
+    }
+    summary.finish()
+}
+
+/// Sums rows one at a time (so a million streamed rows need no list); [`summarize`] in pieces.
+#[derive(Debug, Clone)]
+pub struct Summarizer {
+    by: GroupBy,
+    groups: Vec<SummaryRow>,
+    index: std::collections::HashMap<String, usize>,
+    total: SummaryRow,
+}
+
+impl Summarizer {
+    /// An empty summary grouped `by`.
+    pub fn new(by: GroupBy) -> Self {
+        Summarizer {
+            by,
+            groups: Vec::new(),
+            index: std::collections::HashMap::new(),
+            total: SummaryRow {
+                group: "total".to_string(),
                 ..SummaryRow::default()
+            },
+        }
+    }
+
+    /// Adds one tree's row.
+    pub fn add(&mut self, row: &BenefitRow) {
+        let key = group_of(row, self.by);
+        let slot = match self.index.get(&key) {
+            Some(slot) => *slot,
+            None => {
+                self.groups.push(SummaryRow {
+                    group: key.clone(),
+                    ..SummaryRow::default()
+                });
+                self.index.insert(key, self.groups.len() - 1);
+                self.groups.len() - 1
+            }
+        };
+        self.groups[slot].add(row);
+        self.total.add(row);
+    }
+
+    /// The groups in report order and the total.
+    pub fn finish(self) -> (Vec<SummaryRow>, SummaryRow) {
+        let by = self.by;
+        let mut groups: Vec<SummaryRow> = self.groups.into_iter().map(SummaryRow::finish).collect();
+        if by == GroupBy::Condition {
+            let rank = |g: &SummaryRow| {
+                ConditionBand::ALL
+                    .iter()
+                    .position(|b| b.as_str() == g.group)
+                    .unwrap_or(usize::MAX)
+            };
+            groups.sort_by_key(rank);
+        } else if by == GroupBy::DbhClass {
+            let rank = |g: &SummaryRow| {
+                DBH_CLASSES
+                    .iter()
+                    .position(|(l, _)| *l == g.group)
+                    .unwrap_or(usize::MAX)
+            };
+            groups.sort_by_key(rank);
+        } else {
+            groups.sort_by(|a, b| {
+                b.carbon_kg
+                    .total_cmp(&a.carbon_kg)
+                    .then(a.group.cmp(&b.group))
             });
-            groups.len() - 1
-        });
-        groups[slot].add(row);
-        total.add(row);
+        }
+        (groups, self.total.finish())
     }
-    let mut groups: Vec<SummaryRow> = groups.into_iter().map(SummaryRow::finish).collect();
-    if by == GroupBy::Condition {
-        let rank = |g: &SummaryRow| {
-            ConditionBand::ALL
-                .iter()
-                .position(|b| b.as_str() == g.group)
-                .unwrap_or(usize::MAX)
-        };
-        groups.sort_by_key(rank);
-    } else if by == GroupBy::DbhClass {
-        let rank = |g: &SummaryRow| {
-            DBH_CLASSES
-                .iter()
-                .position(|(l, _)| *l == g.group)
-                .unwrap_or(usize::MAX)
-        };
-        groups.sort_by_key(rank);
-    } else {
-        groups.sort_by(|a, b| {
-            b.carbon_kg
-                .total_cmp(&a.carbon_kg)
-                .then(a.group.cmp(&b.group))
-        });
-    }
-    (groups, total.finish())
 }
 
 /// The first `keep` groups, and the rest combined into one row labelled `other` (trees summed, mean
