@@ -420,3 +420,40 @@ fn history_lists_every_change_and_undo_reverts_an_import() {
         1
     );
 }
+
+/// `--out` to a device or pipe writes into it and leaves it what it was (a temporary file renamed over
+/// `/dev/null` once replaced the device with a plain file).
+#[test]
+fn output_to_a_pipe_keeps_the_pipe() {
+    use std::os::unix::fs::FileTypeExt;
+    let dir = tempfile::tempdir().expect("temp dir");
+    let db = empty_inventory(dir.path());
+    let fifo = dir.path().join("pipe");
+    let made = std::process::Command::new("mkfifo")
+        .arg(&fifo)
+        .status()
+        .expect("mkfifo runs");
+    assert!(made.success());
+    let reader_path = fifo.clone();
+    let reader =
+        std::thread::spawn(move || std::fs::read_to_string(reader_path).expect("read the pipe"));
+    let output = run(
+        dir.path(),
+        &[
+            "--db",
+            &db,
+            "export",
+            "trees",
+            "--out",
+            fifo.to_str().expect("path"),
+        ],
+    );
+    assert!(output.status.success(), "{}", stderr(&output));
+    let received = reader.join().expect("reader thread");
+    assert!(received.starts_with("uid,species,"), "{received}");
+    let kind = std::fs::symlink_metadata(&fifo)
+        .expect("still there")
+        .file_type();
+    assert!(kind.is_fifo(), "the pipe is still a pipe");
+    assert!(!dir.path().join("pipe.partial").exists());
+}

@@ -1204,3 +1204,758 @@ fn quitting_with_an_unsaved_assessment_asks_first() {
     keys(&mut app, &mut query, "y");
     assert_eq!(app.view, View::Card);
 }
+
+// ---- Year summary and studies ----------------------------------------------------------------------
+
+use streetwood::science::inventory::{GroupBy, summarize, top_and_other};
+use streetwood::store::studies::{NewPlanting, NewStudy};
+use streetwood::study::outcome::Benefit;
+use streetwood::study::select::{Criterion, select};
+use streetwood::study::{Mode, StudyEnv, run_study};
+use streetwood::tui::views::{studies, year_summary};
+
+/// A study's plan row for the test setup: (plan, species, count, planting DBH cm, planting year).
+type PlanRow<'a> = (&'a str, &'a str, u32, f64, i32);
+
+/// Creates a study through the store, as `streetwood study new|add|plan` do.
+fn add_study(store: &mut Store, name: &str, criterion: Criterion, plans: &[PlanRow<'_>]) {
+    let weather_year = store.latest_weather_year().expect("weather");
+    let id = store
+        .create_study(
+            &NewStudy {
+                name: name.to_string(),
+                description: None,
+                horizon_years: 40,
+                seed: 42,
+                runs: 200,
+                weather_year,
+                start_year: 2026,
+                functional_limitation: 1.0,
+                external_limitation: 1.0,
+            },
+            now(),
+            "test",
+        )
+        .expect("study created");
+    let chosen =
+        select(&store.study_candidates().expect("candidates"), &[criterion]).expect("trees chosen");
+    store
+        .add_study_trees(id, &chosen, "test", "test")
+        .expect("trees added");
+    let species = store.species().expect("species");
+    for (plan, botanical, count, dbh_cm, year) in plans {
+        let species_id = species
+            .iter()
+            .find(|s| s.scientific_name == *botanical)
+            .expect("species held")
+            .id;
+        store
+            .set_plan_rows(
+                id,
+                plan,
+                &[NewPlanting {
+                    species_id,
+                    count: *count,
+                    dbh_cm: *dbh_cm,
+                    year: *year,
+                }],
+                false,
+                "test",
+            )
+            .expect("plan row");
+    }
+}
+
+/// The demo town with two studies: the Foundry Street works (no payback within 40 years) and two
+/// trees replaced by more young ones (paybacks within the horizon for some benefits).
+fn demo_with_studies() -> Store {
+    let mut store = demo_store();
+    add_study(
+        &mut store,
+        "Foundry works",
+        Criterion::Street("Foundry Street".to_string()),
+        &[
+            ("2:1 oak", "Quercus rubra", 94, 5.0, 2027),
+            ("1:1 cherry", "Prunus serrulata", 47, 5.0, 2027),
+        ],
+    );
+    add_study(
+        &mut store,
+        "Quill corner",
+        Criterion::Ids(vec![12, 15]),
+        &[
+            ("6 oaks", "Quercus rubra", 6, 5.0, 2026),
+            ("3 cherries", "Prunus serrulata", 3, 5.0, 2027),
+        ],
+    );
+    store
+}
+
+/// Draws without taking in background results (to see what shows while they are pending).
+fn draw_only(app: &App, width: u16, height: u16) -> String {
+    let mut terminal = Terminal::new(TestBackend::new(width, height)).expect("terminal");
+    terminal.draw(|frame| app.render(frame)).expect("draw");
+    let buffer = terminal.backend().buffer().clone();
+    let mut text = String::new();
+    for y in 0..buffer.area.height {
+        for x in 0..buffer.area.width {
+            text.push_str(buffer[(x, y)].symbol());
+        }
+        text.push('\n');
+    }
+    text
+}
+
+/// Refreshes until no background work runs (at most 20 s).
+fn wait_for_background(app: &mut App, query: &mut Query<'_>) {
+    for _ in 0..400 {
+        app.refresh(query).expect("refresh");
+        if !query.busy() {
+            app.refresh(query).expect("refresh");
+            return;
+        }
+        std::thread::sleep(std::time::Duration::from_millis(50));
+    }
+    panic!("background work did not finish");
+}
+
+#[test]
+fn year_summary_and_studies_at_100x30_and_80x24() {
+    let mut store = demo_with_studies();
+    let mut query = Query::new(&mut store);
+    let mut app = App::new(&query, AppSettings::default(), today()).expect("app");
+    keys(&mut app, &mut query, "6");
+    assert_eq!(app.view, View::YearSummary);
+    insta::assert_snapshot!("summary_100x30", screen(&mut app, &mut query, 100, 30));
+    insta::assert_snapshot!("summary_80x24", screen(&mut app, &mut query, 80, 24));
+    keys(&mut app, &mut query, "bbb");
+    insta::assert_snapshot!("summary_dbh_80x24", screen(&mut app, &mut query, 80, 24));
+
+    keys(&mut app, &mut query, "7");
+    assert_eq!(app.view, View::Studies);
+    insta::assert_snapshot!(
+        "studies_foundry_80x24",
+        screen(&mut app, &mut query, 80, 24)
+    );
+    key(&mut app, &mut query, KeyCode::Down);
+    key(&mut app, &mut query, KeyCode::Enter);
+    insta::assert_snapshot!("studies_100x30", screen(&mut app, &mut query, 100, 30));
+    insta::assert_snapshot!("studies_80x24", screen(&mut app, &mut query, 80, 24));
+    keys(&mut app, &mut query, "m");
+    insta::assert_snapshot!(
+        "studies_monte_carlo_100x30",
+        screen(&mut app, &mut query, 100, 30)
+    );
+    keys(&mut app, &mut query, "?");
+    insta::assert_snapshot!("studies_help_80x24", screen(&mut app, &mut query, 80, 24));
+}
+
+#[test]
+fn summary_totals_equal_summarize_and_the_grouping_changes_chart_and_table() {
+    let mut store = demo_store();
+    let mut query = Query::new(&mut store);
+    let mut app = App::new(&query, AppSettings::default(), today()).expect("app");
+    keys(&mut app, &mut query, "6");
+    let first = screen(&mut app, &mut query, 100, 30);
+    let summary = app.summary.as_ref().expect("summary state");
+    let run = summary.ready().expect("computed in memory at once").clone();
+    assert_eq!(run.year, 2026, "the latest year of weather held");
+    let (species, total) = summarize(&run.rows, GroupBy::Species);
+    assert_eq!(summary.total, total, "the totals are summarize()'s");
+    assert_eq!(total.trees, run.rows.len());
+    assert_eq!(summary.groups, top_and_other(&species, 10));
+    let totals = year_summary::totals_text(&total, &run.prices.currency);
+    for part in totals.split(" · ") {
+        assert!(
+            first.replace('\n', " ").contains(part) || first.contains(part),
+            "{part} in:\n{first}"
+        );
+    }
+    assert!(
+        first.contains(&format!("year {}", run.year)),
+        "the basis line states the year:\n{first}"
+    );
+    assert!(first.contains("carbon stored, t C"), "{first}");
+    assert!(first.contains("species (top 10 by carbon"), "{first}");
+    assert!(first.contains(&species[0].group), "{first}");
+
+    // b: species → zone; the chart and the table follow.
+    keys(&mut app, &mut query, "b");
+    let zones = screen(&mut app, &mut query, 100, 30);
+    let summary = app.summary.as_ref().expect("summary state");
+    assert_eq!(summary.grouping, year_summary::Grouping::Zone);
+    let (by_zone, zone_total) = summarize(&run.rows, GroupBy::Zone);
+    assert_eq!(summary.groups, by_zone);
+    assert_eq!(
+        summary.total, zone_total,
+        "totals do not depend on grouping"
+    );
+    assert_ne!(zones, first);
+    assert!(zones.contains("zone (by carbon)"), "{zones}");
+    assert!(!zones.contains("species (top 10"), "{zones}");
+    assert!(zones.contains(&by_zone[0].group), "{zones}");
+    let bars = year_summary::bars(summary, 40);
+    assert_eq!(bars.len(), by_zone.len());
+    assert_eq!(bars[0].1, by_zone[0].carbon_kg / 1000.0);
+
+    // The other groupings in turn, and back to species.
+    for (grouping, by) in [
+        (year_summary::Grouping::Street, GroupBy::Street),
+        (year_summary::Grouping::DbhClass, GroupBy::DbhClass),
+        (year_summary::Grouping::Condition, GroupBy::Condition),
+    ] {
+        keys(&mut app, &mut query, "b");
+        let text = screen(&mut app, &mut query, 100, 30);
+        let summary = app.summary.as_ref().expect("summary state");
+        assert_eq!(summary.grouping, grouping);
+        assert_eq!(summary.groups, summarize(&run.rows, by).0);
+        assert!(text.contains(&summary.groups[0].group), "{text}");
+    }
+    keys(&mut app, &mut query, "b");
+    assert_eq!(
+        app.summary.as_ref().expect("state").grouping,
+        year_summary::Grouping::Species
+    );
+
+    // m: the measure charted and tabled.
+    keys(&mut app, &mut query, "m");
+    let values = screen(&mut app, &mut query, 100, 30);
+    assert!(values.contains("CO2e sequestered, t CO2e/yr"), "{values}");
+    let summary = app.summary.as_ref().expect("summary state");
+    assert_eq!(
+        year_summary::bars(summary, 40)[0].1,
+        species[0].co2e_seq_kg_yr / 1000.0
+    );
+
+    // [ steps to 2025 (weather held), ] back to 2026.
+    keys(&mut app, &mut query, "[");
+    let earlier = screen(&mut app, &mut query, 100, 30);
+    let summary = app.summary.as_ref().expect("summary state");
+    let run_2025 = summary.ready().expect("computed").clone();
+    assert_eq!(run_2025.year, 2025);
+    assert_eq!(summary.total, summarize(&run_2025.rows, GroupBy::None).1);
+    assert!(earlier.contains("Year summary 2025"), "{earlier}");
+    keys(&mut app, &mut query, "]");
+    screen(&mut app, &mut query, 100, 30);
+    assert_eq!(
+        app.summary.as_ref().and_then(|s| s.ready()).map(|r| r.year),
+        Some(2026)
+    );
+}
+
+/// Checks that the text is well-formed XML (the report is XHTML-compatible).
+fn assert_well_formed_html(html: &str) {
+    let mut reader = quick_xml::Reader::from_str(html);
+    let mut depth = 0i64;
+    loop {
+        match reader.read_event() {
+            Ok(quick_xml::events::Event::Eof) => break,
+            Ok(quick_xml::events::Event::Start(_)) => depth += 1,
+            Ok(quick_xml::events::Event::End(_)) => depth -= 1,
+            Ok(_) => {}
+            Err(e) => panic!("not well-formed at byte {}: {e}", reader.buffer_position()),
+        }
+    }
+    assert_eq!(depth, 0, "every element is closed");
+}
+
+/// On a file: the year is computed off the UI thread ("computing…" meanwhile); `x` writes the report
+/// to the file confirmed, and refuses the inventory itself.
+#[test]
+fn summary_computes_in_the_background_and_exports_the_html_report_but_never_over_the_inventory() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    let db = dir.path().join("demo.db");
+    let output = common::run(dir.path(), &["demo", "--out", db.to_str().expect("path")]);
+    assert!(output.status.success(), "{}", common::stderr(&output));
+    let inventory_bytes = std::fs::read(&db).expect("inventory");
+    let mut store = Store::open_existing(&db).expect("open");
+    let mut query = Query::new(&mut store);
+    let mut app = App::new(&query, AppSettings::default(), today()).expect("app");
+    keys(&mut app, &mut query, "6");
+    assert!(query.busy(), "the year runs on another thread");
+    let pending = draw_only(&app, 80, 24);
+    assert!(pending.contains("computing 2026"), "{pending}");
+    keys(&mut app, &mut query, "x");
+    assert!(
+        app.message
+            .as_deref()
+            .is_some_and(|m| m.contains("still being computed")),
+        "{:?}",
+        app.message
+    );
+    wait_for_background(&mut app, &mut query);
+    let ready = screen(&mut app, &mut query, 80, 24);
+    let run = app
+        .summary
+        .as_ref()
+        .and_then(|s| s.ready())
+        .expect("the year arrived")
+        .clone();
+    let (_, total) = summarize(&run.rows, GroupBy::None);
+    assert!(
+        ready.contains(&format!(
+            "{} trees · carbon stored",
+            streetwood::tui::format::num(total.trees as f64, 0)
+        )),
+        "{ready}"
+    );
+
+    // The inventory itself (named through another path) is refused; the prompt stays open.
+    keys(&mut app, &mut query, "x");
+    let prompt = screen(&mut app, &mut query, 80, 24);
+    assert!(prompt.contains("streetwood-summary-2026.html"), "{prompt}");
+    ctrl(&mut app, &mut query, 'u');
+    let sneaky = dir.path().join(".").join("demo.db");
+    keys(&mut app, &mut query, sneaky.to_str().expect("path"));
+    key(&mut app, &mut query, KeyCode::Enter);
+    let refused = app.message.clone().unwrap_or_default();
+    assert!(refused.contains("is the inventory itself"), "{refused}");
+    let still = screen(&mut app, &mut query, 80, 24);
+    assert!(still.contains("Enter writes"), "the prompt stays:\n{still}");
+    let wal = format!("{}-wal", db.display());
+    ctrl(&mut app, &mut query, 'u');
+    keys(&mut app, &mut query, &wal);
+    key(&mut app, &mut query, KeyCode::Enter);
+    assert!(
+        app.message
+            .as_deref()
+            .is_some_and(|m| m.contains("is the inventory itself")),
+        "{:?}",
+        app.message
+    );
+
+    // A file in the folder is written whole, and the status line says where.
+    let out = dir.path().join("council").join("report.html");
+    std::fs::create_dir_all(out.parent().expect("folder")).expect("folder");
+    ctrl(&mut app, &mut query, 'u');
+    keys(&mut app, &mut query, out.to_str().expect("path"));
+    key(&mut app, &mut query, KeyCode::Enter);
+    let message = app.message.clone().unwrap_or_default();
+    assert!(
+        message.contains("wrote the year summary report of 2026 to")
+            && message.contains("report.html"),
+        "{message}"
+    );
+    let done = screen(&mut app, &mut query, 80, 24);
+    assert!(!done.contains("Enter writes"), "the prompt closed:\n{done}");
+    let html = std::fs::read_to_string(&out).expect("report written");
+    assert_well_formed_html(&html);
+    assert!(html.contains("<svg"), "charts inline");
+    assert!(html.contains("2026"));
+    let leftovers: Vec<_> = std::fs::read_dir(out.parent().expect("folder"))
+        .expect("list")
+        .flatten()
+        .map(|e| e.file_name())
+        .collect();
+    assert_eq!(leftovers.len(), 1, "no partial file left: {leftovers:?}");
+    drop(query);
+    drop(store);
+    let store = Store::open_existing(&db).expect("the inventory still opens");
+    assert_eq!(store.tree_count().expect("count"), 2497);
+    assert!(!inventory_bytes.is_empty());
+}
+
+/// The CLI's `study compare --format csv` payback columns, per plan: plan → [carbon stored, CO2e
+/// sequestered, interception, cooling, value].
+fn cli_paybacks(dir: &std::path::Path, db: &str, items: &[&str]) -> Vec<(String, Vec<String>)> {
+    let mut args = vec!["--db", db, "study", "compare"];
+    args.extend_from_slice(items);
+    args.extend_from_slice(&["--format", "csv"]);
+    let output = common::run(dir, &args);
+    assert!(output.status.success(), "{}", common::stderr(&output));
+    let text = common::stdout(&output);
+    let mut reader = csv::Reader::from_reader(text.as_bytes());
+    let header = reader.headers().expect("header").clone();
+    let column = |name: &str| header.iter().position(|h| h == name).expect("column");
+    let names = [
+        "payback_carbon_stored",
+        "payback_co2e_sequestered",
+        "payback_interception",
+        "payback_cooling",
+        "payback_value",
+    ];
+    reader
+        .records()
+        .map(|r| {
+            let r = r.expect("row");
+            (
+                r[column("plan")].to_string(),
+                names.iter().map(|n| r[column(n)].to_string()).collect(),
+            )
+        })
+        .collect()
+}
+
+/// Issue 6 "done when", in the TUI: the payback years shown are the CLI's, for every plan and benefit,
+/// in both modes; the run happens off the UI thread.
+#[test]
+fn studies_view_shows_the_payback_years_the_cli_reports() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    let db_path = dir.path().join("demo.db");
+    let db = db_path.to_str().expect("path").to_string();
+    let ok = |args: &[&str]| {
+        let output = common::run(dir.path(), args);
+        assert!(
+            output.status.success(),
+            "{args:?}: {}",
+            common::stderr(&output)
+        );
+    };
+    ok(&["demo", "--out", &db]);
+    ok(&[
+        "--db",
+        &db,
+        "study",
+        "new",
+        "Quill corner",
+        "--start-year",
+        "2026",
+        "--runs",
+        "200",
+    ]);
+    ok(&[
+        "--db",
+        &db,
+        "study",
+        "add",
+        "Quill corner",
+        "--ids",
+        "12,15",
+    ]);
+    ok(&[
+        "--db",
+        &db,
+        "study",
+        "plan",
+        "Quill corner",
+        "6 oaks",
+        "--species",
+        "Quercus rubra",
+        "--count",
+        "6",
+        "--dbh",
+        "5",
+        "--year",
+        "2026",
+    ]);
+    ok(&[
+        "--db",
+        &db,
+        "study",
+        "plan",
+        "Quill corner",
+        "3 cherries",
+        "--species",
+        "Prunus serrulata",
+        "--count",
+        "3",
+        "--dbh",
+        "5",
+        "--year",
+        "2027",
+    ]);
+    let expected = cli_paybacks(
+        dir.path(),
+        &db,
+        &["Quill corner:6 oaks", "Quill corner:3 cherries"],
+    );
+    assert!(
+        expected
+            .iter()
+            .flat_map(|(_, years)| years)
+            .any(|y| !y.is_empty()),
+        "the case has paybacks within the horizon: {expected:?}"
+    );
+
+    let mut store = Store::open_existing(&db_path).expect("open");
+    let mut query = Query::new(&mut store);
+    let mut app = App::new(&query, AppSettings::default(), today()).expect("app");
+    keys(&mut app, &mut query, "7");
+    assert!(query.busy(), "the study runs on another thread");
+    let pending = draw_only(&app, 80, 24);
+    assert!(
+        pending.contains("running study 'Quill corner'"),
+        "{pending}"
+    );
+    wait_for_background(&mut app, &mut query);
+    let text = screen(&mut app, &mut query, 100, 30);
+    let state = app.studies.as_ref().expect("studies state");
+    let run = state.ready().expect("the run arrived").clone();
+    let rows = studies::table_rows(&run);
+    for (plan_name, years) in &expected {
+        let i = run
+            .outcome
+            .plans
+            .iter()
+            .position(|p| &p.plan.name == plan_name)
+            .expect("plan shown");
+        for (benefit, cli_year) in Benefit::ALL.iter().zip(years) {
+            let shown = if cli_year.is_empty() {
+                "not within horizon".to_string()
+            } else {
+                cli_year.clone()
+            };
+            assert_eq!(
+                studies::year_text(studies::payback_of(&run.outcome.plans[i], *benefit)),
+                shown,
+                "{plan_name}, {benefit:?}"
+            );
+            let row = rows
+                .iter()
+                .find(|r| r.label.starts_with("payback: ") && r.label.contains(short(*benefit)))
+                .expect("payback row");
+            assert_eq!(row.plans[i], shown, "{plan_name}, {benefit:?} in the table");
+        }
+    }
+    // The chart's legend names the payback year of the benefit shown (CO2e sequestered), and the
+    // table shows the payback rows on screen.
+    let oaks = &expected
+        .iter()
+        .find(|(p, _)| p == "6 oaks")
+        .expect("oaks")
+        .1;
+    let oaks_index = run
+        .outcome
+        .plans
+        .iter()
+        .position(|p| p.plan.name == "6 oaks")
+        .expect("plan");
+    let mark = studies::PLAN_MARKERS[oaks_index];
+    assert!(
+        text.contains(&format!("{mark}{mark} 6 oaks (payback {})", oaks[1])),
+        "{text}"
+    );
+    assert!(text.contains("payback: CO2e sequestered"), "{text}");
+    assert!(text.contains("never replace, the judgment"), "{text}");
+
+    // Monte Carlo: the medians over runs, as the CLI's.
+    keys(&mut app, &mut query, "m");
+    wait_for_background(&mut app, &mut query);
+    let mc_text = screen(&mut app, &mut query, 100, 30);
+    assert!(mc_text.contains("P10–P90"), "{mc_text}");
+    let output = common::run(
+        dir.path(),
+        &[
+            "--db",
+            &db,
+            "study",
+            "compare",
+            "Quill corner:6 oaks",
+            "Quill corner:3 cherries",
+            "--mode",
+            "monte-carlo",
+            "--format",
+            "csv",
+        ],
+    );
+    assert!(output.status.success(), "{}", common::stderr(&output));
+    let expected_mc = common::stdout(&output);
+    let run = app
+        .studies
+        .as_ref()
+        .and_then(|s| s.ready())
+        .expect("MC run")
+        .clone();
+    assert_eq!(run.outcome.mode, Mode::MonteCarlo);
+    let mut reader = csv::Reader::from_reader(expected_mc.as_bytes());
+    let header = reader.headers().expect("header").clone();
+    let col = |n: &str| header.iter().position(|h| h == n).expect("column");
+    for record in reader.records() {
+        let r = record.expect("row");
+        let plan = run
+            .outcome
+            .plans
+            .iter()
+            .find(|p| p.plan.name == r[col("plan")])
+            .expect("plan");
+        let cli = &r[col("payback_co2e_sequestered")];
+        assert_eq!(
+            studies::payback_of(plan, Benefit::Co2eSequestered).map(|y| y.to_string()),
+            (!cli.is_empty()).then(|| cli.to_string()),
+            "{}",
+            plan.plan.name
+        );
+    }
+}
+
+fn short(benefit: Benefit) -> &'static str {
+    match benefit {
+        Benefit::CarbonStored => "carbon stored",
+        Benefit::Co2eSequestered => "CO2e sequestered",
+        Benefit::Interception => "rain intercepted",
+        Benefit::Cooling => "cooling",
+        Benefit::Value => "value",
+    }
+}
+
+/// The same run through the study functions the CLI calls: the view's table equals the outcome's.
+#[test]
+fn studies_table_equals_the_outcome_and_keys_switch_benefit_mode_and_study() {
+    let mut store = demo_with_studies();
+    let data = store.study_run_data("Quill corner").expect("data");
+    let env = StudyEnv {
+        species: &data.params,
+        imputer: &data.imputer,
+        weather: &data.weather,
+        science: &data.science,
+        settings: &data.settings,
+        scenario: data.settings.survival_scenario,
+    };
+    let outcome = run_study(&data.input, &env, Mode::Expected).expect("run");
+    let mut query = Query::new(&mut store);
+    let mut app = App::new(&query, AppSettings::default(), today()).expect("app");
+    keys(&mut app, &mut query, "7");
+    let state = app.studies.as_ref().expect("state");
+    assert_eq!(
+        state.open.as_deref(),
+        Some("Foundry works"),
+        "the first opens"
+    );
+    key(&mut app, &mut query, KeyCode::Down);
+    key(&mut app, &mut query, KeyCode::Enter);
+    let text = screen(&mut app, &mut query, 100, 30);
+    let run = app
+        .studies
+        .as_ref()
+        .and_then(|s| s.ready())
+        .expect("run")
+        .clone();
+    assert_eq!(
+        run.outcome, outcome,
+        "the view shows the study functions' outcome"
+    );
+    let rows = studies::table_rows(&run);
+    for (i, plan) in outcome.plans.iter().enumerate() {
+        for payback in &plan.paybacks {
+            let row = rows
+                .iter()
+                .find(|r| r.label == format!("payback: {}", short(payback.benefit)))
+                .expect("row");
+            assert_eq!(row.plans[i], studies::year_text(payback.year));
+        }
+    }
+    let appraised = rows
+        .iter()
+        .find(|r| r.label.starts_with("appraised value"))
+        .expect("appraisal row");
+    assert_eq!(
+        appraised.kept,
+        streetwood::tui::format::num(outcome.removal.appraisal_total, 0)
+    );
+    assert!(text.contains("CO2e sequestered, t/yr · expected"), "{text}");
+
+    // b cycles the benefit charted; the legend follows with that benefit's payback year.
+    keys(&mut app, &mut query, "b");
+    let text = screen(&mut app, &mut query, 100, 30);
+    assert_eq!(
+        app.studies.as_ref().expect("state").benefit,
+        Benefit::Interception
+    );
+    assert!(text.contains("rain intercepted, m³/yr"), "{text}");
+    let oaks = outcome
+        .plans
+        .iter()
+        .find(|p| p.plan.name == "6 oaks")
+        .expect("plan");
+    let year = studies::year_text(studies::payback_of(oaks, Benefit::Interception));
+    assert!(text.contains(&format!("6 oaks (payback {year})")), "{text}");
+
+    // PgDn scrolls the table down to the totals.
+    for _ in 0..6 {
+        key(&mut app, &mut query, KeyCode::PageDown);
+    }
+    let text = screen(&mut app, &mut query, 100, 30);
+    assert!(text.contains("discounted deficit"), "{text}");
+
+    // r reads the list again; the studies are kept.
+    keys(&mut app, &mut query, "r");
+    assert!(
+        app.message
+            .as_deref()
+            .is_some_and(|m| m.starts_with("2 studies read")),
+        "{:?}",
+        app.message
+    );
+}
+
+#[test]
+fn studies_lines_differ_by_marker_and_colour_only_without_no_color() {
+    for no_color in [false, true] {
+        let mut store = demo_with_studies();
+        let mut query = Query::new(&mut store);
+        let settings = AppSettings {
+            us_units: false,
+            no_color,
+        };
+        let mut app = App::new(&query, settings, today()).expect("app");
+        keys(&mut app, &mut query, "7");
+        key(&mut app, &mut query, KeyCode::Down);
+        key(&mut app, &mut query, KeyCode::Enter);
+        let buffer = buffer(&mut app, &mut query, 100, 30);
+        let text = screen(&mut app, &mut query, 100, 30);
+        // Each plan has its own mark in the legend and in the chart.
+        // Plans are listed by name: "3 cherries" first (o), "6 oaks" second (+).
+        let (x, y) =
+            find(&buffer, "oo 3 cherries", "oo 3 cherries").expect("legend of the first plan");
+        assert!(find(&buffer, "++ 6 oaks", "++").is_some(), "{text}");
+        let chart_rows: String = text.lines().take(11).collect::<Vec<_>>().join("\n");
+        assert!(
+            chart_rows.contains('o') && chart_rows.contains('+'),
+            "{chart_rows}"
+        );
+        let cell = &buffer[(x, y)];
+        if no_color {
+            assert_eq!(cell.fg, Color::Reset, "NO_COLOR: no colour");
+        } else {
+            assert_ne!(cell.fg, Color::Reset, "a colour beside the mark");
+        }
+    }
+}
+
+#[test]
+fn studies_view_without_studies_says_how_to_make_one_and_help_lists_every_key() {
+    let mut store = demo_store();
+    let mut query = Query::new(&mut store);
+    let mut app = App::new(&query, AppSettings::default(), today()).expect("app");
+    keys(&mut app, &mut query, "7");
+    let text = screen(&mut app, &mut query, 80, 24);
+    assert!(text.contains("No removal studies yet"), "{text}");
+    assert!(text.contains("streetwood study new"), "{text}");
+    assert!(text.contains("never replace, the judgment"), "{text}");
+    for view_key in ["7", "6"] {
+        keys(&mut app, &mut query, view_key);
+        keys(&mut app, &mut query, "?");
+        let help = screen(&mut app, &mut query, 80, 24);
+        for (keys_text, short_label, what) in keys_of(app.view) {
+            assert!(help.contains(keys_text), "{keys_text} in:\n{help}");
+            let flat = help
+                .lines()
+                .map(|l| l.trim_matches(|c| c == '│' || c == ' '))
+                .collect::<Vec<_>>()
+                .join(" ");
+            assert!(
+                flat.contains(what) || help.contains(&what[..what.len().min(40)]),
+                "{what} in:\n{help}"
+            );
+            assert!(!short_label.is_empty());
+        }
+        key(&mut app, &mut query, KeyCode::Esc);
+    }
+    // The footer of each new view shows its keys; the tab bar names both views.
+    keys(&mut app, &mut query, "6");
+    let text = screen(&mut app, &mut query, 80, 24);
+    let footer = text.lines().last().expect("footer");
+    assert!(
+        footer.contains(" b ") && footer.contains("group by"),
+        "{footer}"
+    );
+    assert!(
+        footer.contains(" x ") && footer.contains("export"),
+        "{footer}"
+    );
+    let tabs = text.lines().next().expect("tabs");
+    assert!(
+        tabs.contains("6 Summary") && tabs.contains("7 Studies"),
+        "{tabs}"
+    );
+}

@@ -314,6 +314,27 @@ pub fn with_output(
                     path.display()
                 )));
             }
+            // A device or pipe (`--out /dev/null`, a FIFO) is written in place: renaming a temporary
+            // file over it would replace the device with a plain file.
+            if let Ok(meta) = std::fs::metadata(path) {
+                if meta.is_dir() {
+                    return Err(CliError::Input(format!(
+                        "{} is a folder; give a file name",
+                        path.display()
+                    )));
+                }
+                if !meta.is_file() {
+                    let file = std::fs::OpenOptions::new()
+                        .write(true)
+                        .open(path)
+                        .map_err(|e| {
+                            CliError::Input(format!("cannot write {}: {e}", path.display()))
+                        })?;
+                    let mut writer = std::io::BufWriter::new(file);
+                    return write(&mut writer)
+                        .and_then(|()| writer.flush().map_err(CliError::from));
+                }
+            }
             let partial = partial_path(path);
             let file = std::fs::File::create(&partial)
                 .map_err(|e| CliError::Input(format!("cannot write {}: {e}", partial.display())))?;

@@ -13,6 +13,7 @@ use ratatui::text::{Line, Span};
 use ratatui::widgets::{Block, Borders, Clear, Paragraph, Wrap};
 use tui_input::Input;
 
+mod analysis_flow;
 mod care_flow;
 
 use super::query::Query;
@@ -21,9 +22,11 @@ use super::views::care;
 use super::views::field_log::{self, FieldId, FormAction};
 use super::views::plan_view::{self, PlanAction};
 use super::views::roster::{self, Filter};
+use super::views::studies;
 use super::views::tree_card;
 use super::views::tree_edit;
 use super::views::work_form;
+use super::views::year_summary;
 use super::widgets::picker::{Outcome, Picker};
 use super::widgets::text;
 use crate::model::TreeStatus;
@@ -47,17 +50,23 @@ pub enum View {
     FieldLog,
     Plan,
     Care,
+    /// The year summary: totals, charts and tables of the groups, the printable report.
+    YearSummary,
+    /// Removal studies against their replanting plans.
+    Studies,
     /// The risk assessment form (opened from the tree card or the care view; not a tab).
     Assess,
 }
 
 impl View {
-    const ALL: [View; 5] = [
+    const ALL: [View; 7] = [
         View::Roster,
         View::Card,
         View::FieldLog,
         View::Plan,
         View::Care,
+        View::YearSummary,
+        View::Studies,
     ];
 
     fn title(self) -> &'static str {
@@ -67,6 +76,22 @@ impl View {
             View::FieldLog => "3 Field log",
             View::Plan => "4 Plan view",
             View::Care => "5 Care",
+            View::YearSummary => "6 Summary",
+            View::Studies => "7 Studies",
+            View::Assess => "Assess",
+        }
+    }
+
+    /// The tab's title when the full ones do not fit.
+    fn short_title(self) -> &'static str {
+        match self {
+            View::Roster => "1 Roster",
+            View::Card => "2 Card",
+            View::FieldLog => "3 Log",
+            View::Plan => "4 Plan",
+            View::Care => "5 Care",
+            View::YearSummary => "6 Summary",
+            View::Studies => "7 Studies",
             View::Assess => "Assess",
         }
     }
@@ -135,6 +160,12 @@ pub enum Action {
     AssessKey(KeyEvent),
     /// A key for the open dialog (work order, tree attributes).
     DialogKey(KeyEvent),
+    /// A key of the year summary.
+    Summary(year_summary::Key),
+    /// Year summary: write the printable HTML report (asks for the file first).
+    StartExport,
+    /// A key of the studies view.
+    Studies(studies::Key),
 }
 
 /// What a picker popup chooses.
@@ -180,6 +211,8 @@ const FILTER_KINDS: [(FilterKind, &str); 7] = [
 enum PromptFor {
     Search,
     RemovalReason(i64),
+    /// The file the year summary's HTML report goes to.
+    ExportPath,
 }
 
 /// What a yes/no question is for.
@@ -227,6 +260,10 @@ pub struct App {
     pub care: Option<care::State>,
     /// The assessment form in progress.
     pub assess: Option<assess_form::State>,
+    /// The year summary (made when first shown).
+    pub summary: Option<year_summary::State>,
+    /// The studies view (made when first shown).
+    pub studies: Option<studies::State>,
     pub settings: AppSettings,
     pub file_label: String,
     pub message: Option<String>,
@@ -313,6 +350,46 @@ pub fn keys_of(view: View) -> &'static [KeyHelp] {
             ("o", "overdue", "overdue only / all"),
             ("↑↓ PgUp PgDn g G", "move", "move"),
         ],
+        View::YearSummary => &[
+            (
+                "b",
+                "group by",
+                "group by: species (top 10 + other), zone, street, DBH class, condition band",
+            ),
+            (
+                "m",
+                "measure",
+                "measure: trees, carbon, CO2e, rain, transpiration, cooling, value",
+            ),
+            (
+                "x",
+                "export",
+                "write the printable HTML report (asks for the file)",
+            ),
+            ("[ ]", "year", "earlier / later year of weather held"),
+            ("↑↓ PgUp PgDn g G", "move", "move in the table of groups"),
+        ],
+        View::Studies => &[
+            ("↑↓", "study", "choose a study in the list"),
+            ("Enter", "open", "run and show the chosen study"),
+            (
+                "b",
+                "benefit",
+                "benefit charted: carbon, CO2e, rain, cooling, value",
+            ),
+            (
+                "m",
+                "expected / MC",
+                "expected values / Monte Carlo runs (P10–P90 band)",
+            ),
+            ("PgUp PgDn", "scroll", "scroll the side-by-side table"),
+            ("← →", "plans", "other plans when they do not all fit"),
+            (
+                "r",
+                "reload",
+                "reload the list (make studies: streetwood study …)",
+            ),
+        ],
         View::Assess => &[
             ("Tab ↑↓", "field", "next / previous field"),
             (
@@ -366,7 +443,10 @@ pub const DIALOG_KEYS: &[KeyHelp] = &[
 
 /// Keys that work everywhere except while typing in the field log.
 pub const GLOBAL_KEYS: &[(&str, &str)] = &[
-    ("1 2 3 4 5", "roster, tree card, field log, plan view, care"),
+    (
+        "1 2 3 4 5 6 7",
+        "roster, card, log, plan, care, summary, studies",
+    ),
     ("U", "metric / US units"),
     ("u", "undo the last change (asks first)"),
     ("?", "help"),
@@ -388,6 +468,8 @@ impl App {
             plan: None,
             care: None,
             assess: None,
+            summary: None,
+            studies: None,
             settings,
             file_label: query.file_label(),
             message: None,
@@ -434,6 +516,8 @@ impl App {
             KeyCode::Char('3') => Some(Action::NewTree),
             KeyCode::Char('4') => Some(Action::Show(View::Plan)),
             KeyCode::Char('5') => Some(Action::Show(View::Care)),
+            KeyCode::Char('6') => Some(Action::Show(View::YearSummary)),
+            KeyCode::Char('7') => Some(Action::Show(View::Studies)),
             KeyCode::Char('U') => Some(Action::ToggleUnits),
             KeyCode::Char('u') => Some(Action::StartUndo),
             _ => None,
@@ -481,6 +565,11 @@ impl App {
                 KeyCode::Char('o') => Some(Action::CareOverdue),
                 _ => roster::handle_key(key).map(Action::CareMove),
             },
+            View::YearSummary => match key.code {
+                KeyCode::Char('x') => Some(Action::StartExport),
+                _ => year_summary::handle_key(key).map(Action::Summary),
+            },
+            View::Studies => studies::handle_key(key).map(Action::Studies),
             View::FieldLog | View::Assess => None,
         }
     }
@@ -546,6 +635,8 @@ impl App {
                 self.view = View::Plan;
             }
             Action::Show(View::Care) => self.show_care(query)?,
+            Action::Show(View::YearSummary) => self.show_summary(query)?,
+            Action::Show(View::Studies) => self.show_studies(query)?,
             Action::Show(View::Assess) => {
                 if self.assess.is_some() {
                     self.view = View::Assess;
@@ -681,6 +772,9 @@ impl App {
             Action::ShowTreeWork => self.show_tree_work(query)?,
             Action::AssessKey(key) => self.assess_key(key, query, now)?,
             Action::DialogKey(key) => self.dialog_key(key, query, now)?,
+            Action::Summary(key) => self.summary_key(key, query),
+            Action::StartExport => self.start_export(),
+            Action::Studies(key) => self.studies_key(key, query)?,
         }
         Ok(())
     }
@@ -909,9 +1003,17 @@ impl App {
                     if purpose == PromptFor::Search {
                         self.roster.set_search("", HashSet::new());
                     }
+                    if purpose == PromptFor::ExportPath {
+                        self.message = Some("report not written".to_string());
+                    }
                 }
                 KeyCode::Enter => match purpose {
                     PromptFor::Search => self.apply_search(input.value(), query)?,
+                    PromptFor::ExportPath => {
+                        if !self.export_to(input.value(), query) {
+                            self.popup = Some(Popup::Prompt(purpose, prompt, input));
+                        }
+                    }
                     PromptFor::RemovalReason(id) => {
                         let reason = input.value().trim().to_string();
                         if reason.is_empty() {
@@ -1096,6 +1198,7 @@ impl App {
         {
             card.benefits = query.tree_benefits(card.detail.summary.id);
         }
+        self.sync_analysis(query);
         self.busy = query.busy();
         self.roster.refresh(query)
     }
@@ -1117,12 +1220,33 @@ impl App {
             " Streetwood ",
             Style::new().add_modifier(Modifier::BOLD),
         )];
-        let shown_tabs = View::ALL
+        let shown_tabs: Vec<View> = View::ALL
             .iter()
             .copied()
-            .chain((self.view == View::Assess).then_some(View::Assess));
+            .chain((self.view == View::Assess).then_some(View::Assess))
+            .collect();
+        let full_width: usize = 12
+            + shown_tabs
+                .iter()
+                .map(|v| v.title().chars().count() + 2)
+                .sum::<usize>();
+        let width = usize::from(frame.area().width);
+        let short = full_width > width;
+        // Without room for the short titles too, the name goes (the tabs and the current view stay).
+        let short_width: usize = 12
+            + shown_tabs
+                .iter()
+                .map(|v| v.short_title().chars().count() + 2)
+                .sum::<usize>();
+        if short_width > width {
+            spans.clear();
+        }
         for view in shown_tabs {
-            let title = view.title();
+            let title = if short {
+                view.short_title()
+            } else {
+                view.title()
+            };
             if view == self.view {
                 spans.push(Span::styled(
                     format!("[{title}]"),
@@ -1163,6 +1287,14 @@ impl App {
                 Some(assess) => assess_form::render(assess, self.settings.no_color, frame, body),
                 None => frame.render_widget(Paragraph::new("No assessment in progress."), body),
             },
+            View::YearSummary => match &self.summary {
+                Some(summary) => year_summary::render(summary, self.settings.no_color, frame, body),
+                None => frame.render_widget(Paragraph::new("Press 6 for the year summary."), body),
+            },
+            View::Studies => match &self.studies {
+                Some(s) => studies::render(s, self.settings.no_color, frame, body),
+                None => frame.render_widget(Paragraph::new("Press 7 for the studies."), body),
+            },
         }
         let status_line = match &self.message {
             Some(message) => Line::from(format!(" {message}")),
@@ -1171,6 +1303,16 @@ impl App {
                 .care
                 .as_ref()
                 .map(care::status_line)
+                .unwrap_or_default(),
+            None if self.view == View::YearSummary => self
+                .summary
+                .as_ref()
+                .map(year_summary::status_line)
+                .unwrap_or_default(),
+            None if self.view == View::Studies => self
+                .studies
+                .as_ref()
+                .map(studies::status_line)
                 .unwrap_or_default(),
             None => Line::from(""),
         };

@@ -3,6 +3,7 @@
 //! facade every view reads and writes through (no SQL here).
 
 pub mod app;
+pub mod format;
 pub mod query;
 pub mod views;
 pub mod widgets;

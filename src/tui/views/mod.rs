@@ -5,6 +5,8 @@ pub mod care;
 pub mod field_log;
 pub mod plan_view;
 pub mod roster;
+pub mod studies;
 pub mod tree_card;
 pub mod tree_edit;
 pub mod work_form;
+pub mod year_summary;

@@ -41,9 +41,11 @@ pub fn wrapped_height(text: &str, width: u16) -> u16 {
     let mut lines = 0u16;
     for paragraph in text.split('\n') {
         let mut used = 0usize;
+        // Leading blanks take room on the first line (a status line starts with one).
+        let mut indent = paragraph.chars().take_while(|c| *c == ' ').count();
         lines = lines.saturating_add(1);
         for word in paragraph.split_whitespace() {
-            let length = word.chars().count();
+            let length = word.chars().count() + std::mem::take(&mut indent);
             if used == 0 {
                 used = length;
             } else if used + 1 + length <= width {
@@ -64,6 +66,12 @@ pub fn wrapped_height(text: &str, width: u16) -> u16 {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn leading_blanks_count_on_the_first_line() {
+        assert_eq!(wrapped_height("abc def", 7), 1);
+        assert_eq!(wrapped_height(" abc def", 7), 2);
+    }
 
     #[test]
     fn wrapped_height_counts_greedy_lines() {
