@@ -317,6 +317,12 @@ fn render_chart(state: &State, settings: AppSettings, frame: &mut Frame<'_>, are
     let (x0, x1) = points
         .iter()
         .fold((f64::MAX, f64::MIN), |(a, b), p| (a.min(p.0), b.max(p.0)));
+    // Measurements close together (or on one day) still get a readable span of at least a year.
+    let (x0, x1) = if x1 - x0 < 1.0 {
+        ((x0 + x1) / 2.0 - 0.5, (x0 + x1) / 2.0 + 0.5)
+    } else {
+        (x0, x1)
+    };
     let (y0, y1) = points
         .iter()
         .fold((f64::MAX, f64::MIN), |(a, b), p| (a.min(p.1), b.max(p.1)));
@@ -331,11 +337,16 @@ fn render_chart(state: &State, settings: AppSettings, frame: &mut Frame<'_>, are
         .x_axis(
             Axis::default()
                 .bounds([x0, x1])
-                .labels([format!("{x0:.0}"), format!("{x1:.0}")]),
+                .labels([year_label(x0), year_label(x1)]),
         )
         .y_axis(Axis::default().bounds([y0 - pad, y1 + pad]).labels([
             format!("{:.0}", y0 - pad),
             format!("{:.0} {unit}", y1 + pad),
         ]));
     frame.render_widget(chart, area);
+}
+
+/// A fractional year as the year it falls in (2026.9 is still 2026).
+fn year_label(year: f64) -> String {
+    format!("{}", year.floor())
 }
