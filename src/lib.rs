@@ -17,4 +17,5 @@ pub mod settings;
 pub mod spatial;
 pub mod store;
 pub mod study;
+pub mod sync;
 pub mod tui;

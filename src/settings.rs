@@ -1,6 +1,11 @@
 //! The settings registry: every key the `settings` table holds, with its default. Science defaults come
 //! from METHODS.md (via [`crate::science`]); the others are Streetwood's own.
 
+/// Rolling daily backups kept by default.
+pub const DEFAULT_BACKUP_KEEP: usize = 7;
+/// Most rolling daily backups that may be kept.
+pub const MAX_BACKUP_KEEP: usize = 366;
+
 /// Every setting with its default value, as stored (text).
 pub fn default_pairs() -> Vec<(&'static str, String)> {
     let mut pairs: Vec<(&'static str, String)> = vec![
@@ -8,6 +13,8 @@ pub fn default_pairs() -> Vec<(&'static str, String)> {
         ("units", "metric".to_string()),
         // The weather station whose days feed the benefits (name in weather_stations); empty = the only one.
         ("default_station", String::new()),
+        // Rolling daily backups the TUI keeps of the file it opens (0 = none).
+        ("backup_keep", DEFAULT_BACKUP_KEEP.to_string()),
     ];
     for rating in crate::care::risk::RiskRating::ALL {
         pairs.push((
@@ -62,10 +69,27 @@ pub fn validate(key: &str, value: &str) -> Result<(), String> {
     if key.starts_with("cycle_") {
         return crate::care::cycles::validate_setting(key, value).map_err(|e| e.to_string());
     }
+    if key == "backup_keep" {
+        return parse_backup_keep(value).map(|_| ());
+    }
     if key == "units" && !matches!(value, "metric" | "us") {
         return Err(format!("units = '{value}': must be metric or us"));
     }
     Ok(())
+}
+
+/// Reads `backup_keep`: a whole number of daily backups, 0 (none) to [`MAX_BACKUP_KEEP`].
+pub fn parse_backup_keep(value: &str) -> Result<usize, String> {
+    value
+        .trim()
+        .parse::<usize>()
+        .ok()
+        .filter(|n| *n <= MAX_BACKUP_KEEP)
+        .ok_or_else(|| {
+            format!(
+                "backup_keep = '{value}': must be a whole number of daily backups from 0 (none) to {MAX_BACKUP_KEEP}"
+            )
+        })
 }
 
 /// The settings key holding the re-inspection interval (months) of a risk rating.
@@ -101,5 +125,16 @@ mod tests {
             science.ok(),
             Some(crate::science::settings::ScienceSettings::default())
         );
+    }
+
+    #[test]
+    fn backup_keep_is_a_bounded_whole_number() {
+        assert_eq!(validate("backup_keep", "7"), Ok(()));
+        assert_eq!(validate("backup_keep", "0"), Ok(()));
+        assert_eq!(parse_backup_keep(" 30 "), Ok(30));
+        for bad in ["-1", "2.5", "seven", "", "367"] {
+            let error = validate("backup_keep", bad).expect_err(bad);
+            assert!(error.contains("whole number of daily backups"), "{error}");
+        }
     }
 }

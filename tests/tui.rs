@@ -325,9 +325,14 @@ fn binary_adds_a_tree_by_keystrokes_in_a_terminal() {
     assert!(output.status.success(), "{}", common::stderr(&output));
 
     let mut command = std::process::Command::new(common::binary());
+    // The TUI makes a rolling backup of the file it opens: keep it (and everything else) out of the
+    // real home directory.
     command
         .args(["--db", db.to_str().expect("path")])
-        .env("TERM", "xterm-256color");
+        .env("TERM", "xterm-256color")
+        .env("HOME", dir.path())
+        .env("XDG_DATA_HOME", dir.path().join("xdg-data"))
+        .env("STREETWOOD_BACKUP_DIR", dir.path().join("backups"));
     let mut session = expectrl::session::Session::spawn(command).expect("spawn in a pty");
     session.set_expect_timeout(Some(std::time::Duration::from_secs(20)));
     session
@@ -365,6 +370,10 @@ fn binary_adds_a_tree_by_keystrokes_in_a_terminal() {
     let history = audit::entries_for_row(store.conn(), "trees", id).expect("audit");
     assert_eq!(history.len(), 1);
     assert_eq!(history[0].action, "insert");
+    assert!(
+        dir.path().join("backups").is_dir(),
+        "the rolling backup went to the test's folder"
+    );
 }
 
 /// On a file, the year's benefits are computed on another thread; the card says so until they come.

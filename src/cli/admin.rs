@@ -62,19 +62,14 @@ pub fn backup(inventory: &Path, target: &Path, force: bool) -> Result<(), CliErr
         )));
     }
     let store = open_store(inventory)?;
-    store.backup_to(target)?;
-    let copy = Store::open_existing(target)?;
-    let check = copy.integrity_check()?;
-    if check != "ok" {
-        return Err(CliError::Other(anyhow::anyhow!(
-            "the backup failed its integrity check: {check}"
-        )));
-    }
+    // Written beside the target, integrity-checked and renamed into place: never half a backup.
+    store.backup_file(target)?;
+    let copy = crate::store::backup::inspect_backup(target)?;
     eprintln!(
         "backed up {} to {} ({} trees, integrity ok)",
         inventory.display(),
         target.display(),
-        copy.tree_count()?
+        copy.trees
     );
     Ok(())
 }

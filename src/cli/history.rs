@@ -57,10 +57,12 @@ pub fn undo(inventory: &Path, count: usize, list: bool) -> Result<(), CliError> 
         if changes.is_empty() {
             eprintln!("nothing to undo");
         }
-        for change in changes {
-            println!("{}", change.describe());
-        }
-        return Ok(());
+        return with_output(None, inventory, |out| {
+            for change in &changes {
+                writeln!(out, "{}", change.describe())?;
+            }
+            Ok(())
+        });
     }
     for done in 0..count {
         match store.undo_last("undo")? {

@@ -5,11 +5,15 @@
 pub mod admin;
 pub mod benefits;
 pub mod care;
+pub mod check;
 pub mod demo;
 pub mod export;
+pub mod field_entries;
 pub mod history;
 pub mod import;
+pub mod merge;
 pub mod report;
+pub mod restore;
 pub mod study;
 pub mod synthetic;
 pub mod work;
@@ -71,6 +75,54 @@ pub enum Command {
         /// Replace FILE if it exists.
         #[arg(long)]
         force: bool,
+    },
+    /// Put a backup in place of the inventory (checked first; --force replaces an existing inventory,
+    /// keeping a copy of it beside it).
+    Restore {
+        /// The backup file.
+        file: PathBuf,
+        /// Replace the inventory if it exists.
+        #[arg(long)]
+        force: bool,
+    },
+    /// Make a field copy of the inventory for a crew (merge it back with `merge`).
+    Copy {
+        /// The crew the copy is for.
+        #[arg(long = "for", value_name = "CREW")]
+        crew: String,
+        /// The new copy (must not exist).
+        file: PathBuf,
+    },
+    /// Merge a field copy into the inventory (one transaction; conflicts go to the later change).
+    Merge {
+        /// The copy to merge (only read).
+        other: PathBuf,
+        /// Report what would change, change nothing.
+        #[arg(long)]
+        dry_run: bool,
+        /// Report format.
+        #[arg(long, value_enum, default_value = "text")]
+        format: merge::MergeFormat,
+    },
+    /// Check the inventory: integrity, foreign keys, orphan rows, implausible measurements.
+    /// Exit 0 when clean, 3 when there are findings to follow up.
+    Check {
+        /// Output format.
+        #[arg(long, value_enum, default_value = "text")]
+        format: check::CheckFormat,
+        /// Output file (default: standard output).
+        #[arg(long, value_name = "FILE")]
+        out: Option<PathBuf>,
+    },
+    /// Save invented trees one write at a time, acknowledging each (crash-safety tests).
+    #[command(hide = true)]
+    FieldEntries {
+        /// How many trees.
+        #[arg(long)]
+        count: usize,
+        /// The uids are PREFIX-0, PREFIX-1, …
+        #[arg(long)]
+        prefix: String,
     },
     /// Every standing tree's benefits for a year (DESIGN.md columns plus `estimated`).
     Benefits {
@@ -171,6 +223,9 @@ pub enum CliError {
     /// Anything else: exit code 1.
     #[error(transparent)]
     Other(#[from] anyhow::Error),
+    /// `check` found things to follow up (listed on the output): exit code 3.
+    #[error("{0}")]
+    Findings(String),
 }
 
 impl CliError {
@@ -179,6 +234,7 @@ impl CliError {
         match self {
             CliError::Input(_) => 2,
             CliError::Other(_) => 1,
+            CliError::Findings(_) => 3,
         }
     }
 }
@@ -191,7 +247,10 @@ impl From<StoreError> for CliError {
             | StoreError::Missing { .. }
             | StoreError::NotAnInventory { .. }
             | StoreError::NewerSchema { .. } => CliError::Input(error.to_string()),
-            other => CliError::Other(anyhow::Error::new(other)),
+            other => match other.storage_problem() {
+                Some(explained) => CliError::Other(anyhow::anyhow!("{explained} ({other})")),
+                None => CliError::Other(anyhow::Error::new(other)),
+            },
         }
     }
 }
@@ -213,9 +272,43 @@ pub fn run(
         Command::Demo { out, force } => demo::write_demo(out, *force).map(|summary| {
             eprintln!("{summary}");
         }),
-        Command::Import(what) => import::run(&inventory_path(cli)?, what, now),
+        Command::Import(what) => {
+            let inventory = inventory_path(cli)?;
+            if let import::ImportCommand::Trees {
+                file,
+                rejects: Some(rejects),
+                ..
+            } = what
+                && (same_file(rejects, &inventory) || same_file(rejects, file))
+            {
+                return Err(CliError::Input(format!(
+                    "--rejects {} is the inventory or the file being imported; choose another file",
+                    rejects.display()
+                )));
+            }
+            import::run(&inventory, what, now)
+        }
         Command::Export(what) => export::run(&inventory_path(cli)?, what),
         Command::Backup { file, force } => admin::backup(&inventory_path(cli)?, file, *force),
+        Command::Restore { file, force } => {
+            let inventory = match &cli.db {
+                Some(path) => path.clone(),
+                None => default_demo_path()?,
+            };
+            restore::restore(&inventory, file, *force, now)
+        }
+        Command::Copy { crew, file } => merge::copy(&inventory_path(cli)?, crew, file, now),
+        Command::Merge {
+            other,
+            dry_run,
+            format,
+        } => merge::merge(&inventory_path(cli)?, other, *dry_run, *format, now),
+        Command::Check { format, out } => {
+            check::check(&inventory_path(cli)?, *format, out.as_ref())
+        }
+        Command::FieldEntries { count, prefix } => {
+            field_entries::field_entries(&inventory_path(cli)?, *count, prefix, now)
+        }
         Command::History { tree, format } => history::history(&inventory_path(cli)?, tree, *format),
         Command::Undo { count, list } => history::undo(&inventory_path(cli)?, *count, *list),
         Command::Gen {
@@ -285,9 +378,76 @@ pub fn default_demo_path() -> Result<PathBuf, CliError> {
     Ok(dirs.data_dir().join("demo-inventory.db"))
 }
 
-/// Opens an existing inventory for a command.
+/// Where the TUI's rolling daily backups of `inventory` go: `STREETWOOD_BACKUP_DIR` if set, else
+/// `<data dir>/backups/<file stem>-<hash of the full path>` (so two `inventory.db` in different folders
+/// never share, or prune, each other's backups).
+pub fn rolling_backup_dir(inventory: &Path) -> Result<PathBuf, CliError> {
+    if let Some(dir) = std::env::var_os("STREETWOOD_BACKUP_DIR").filter(|d| !d.is_empty()) {
+        return Ok(PathBuf::from(dir));
+    }
+    let data = default_demo_path()?
+        .parent()
+        .map(Path::to_path_buf)
+        .ok_or_else(|| CliError::Input("no data directory found".to_string()))?;
+    let full = inventory
+        .canonicalize()
+        .unwrap_or_else(|_| inventory.to_path_buf());
+    // FNV-1a (64 bit): a stable, documented hash (std's hasher may change between Rust releases).
+    let hash = full
+        .to_string_lossy()
+        .bytes()
+        .fold(0xcbf2_9ce4_8422_2325_u64, |h, b| {
+            (h ^ u64::from(b)).wrapping_mul(0x0000_0100_0000_01b3)
+        });
+    let stem = inventory
+        .file_stem()
+        .map(|s| s.to_string_lossy().into_owned())
+        .unwrap_or_else(|| "inventory".to_string());
+    Ok(data
+        .join("backups")
+        .join(format!("{stem}-{:08x}", hash >> 32)))
+}
+
+/// Opens an existing inventory for a command. A file SQLite cannot open because it (or its folder,
+/// where SQLite keeps FILE-wal and FILE-shm) is read-only is reported as such, not as "not an
+/// inventory".
 pub fn open_store(path: &Path) -> Result<Store, CliError> {
-    Ok(Store::open_existing(path)?)
+    Store::open_existing(path).map_err(|error| match error {
+        StoreError::NotAnInventory { reason, .. } if read_only_place(path) => {
+            CliError::Other(anyhow::anyhow!(
+                "{} cannot be opened: it or its folder is read-only for you, and Streetwood writes to the file and keeps FILE-wal and FILE-shm beside it; make both writable, or copy the file somewhere writable ({reason})",
+                path.display()
+            ))
+        }
+        other => other.into(),
+    })
+}
+
+/// True when `path` cannot be opened for writing, or no file can be created beside it.
+fn read_only_place(path: &Path) -> bool {
+    let denied = |e: &std::io::Error| {
+        matches!(
+            e.kind(),
+            std::io::ErrorKind::PermissionDenied | std::io::ErrorKind::ReadOnlyFilesystem
+        )
+    };
+    if let Err(e) = std::fs::OpenOptions::new().append(true).open(path)
+        && denied(&e)
+    {
+        return true;
+    }
+    let probe = partial_path(&path.with_extension(format!("probe-{}", std::process::id())));
+    match std::fs::OpenOptions::new()
+        .write(true)
+        .create_new(true)
+        .open(&probe)
+    {
+        Ok(_) => {
+            let _ = std::fs::remove_file(&probe);
+            false
+        }
+        Err(e) => denied(&e),
+    }
 }
 
 /// Writes to `out` through a temporary file renamed into place at the end (so a failed export never

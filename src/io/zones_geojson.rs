@@ -14,6 +14,31 @@ pub struct ZoneShape {
     pub geometry_json: String,
 }
 
+/// Why a (Multi)Polygon's positions cannot be used: fewer than two numbers, or a number that is not
+/// finite. `None` when all are usable (and for other geometry types, refused elsewhere).
+fn bad_position(value: &GeometryValue) -> Option<String> {
+    let positions: Vec<&geojson::Position> = match value {
+        GeometryValue::Polygon { coordinates } => coordinates.iter().flatten().collect(),
+        GeometryValue::MultiPolygon { coordinates } => {
+            coordinates.iter().flatten().flatten().collect()
+        }
+        _ => return None,
+    };
+    positions.into_iter().find_map(|p| {
+        let numbers = p.as_slice();
+        if numbers.len() < 2 {
+            Some(format!(
+                "a position has {} number(s); [lon, lat] needs two",
+                numbers.len()
+            ))
+        } else if numbers.iter().any(|n| !n.is_finite()) {
+            Some("a position has a number that is not finite".to_string())
+        } else {
+            None
+        }
+    })
+}
+
 /// Reads zones; features that are not (Multi)Polygons or have no name are row errors, numbered by
 /// feature (1-based) in `line`.
 pub fn read_zones(text: &str) -> Result<(Vec<ZoneShape>, Vec<RowError>), FileError> {
@@ -51,6 +76,12 @@ pub fn read_zones(text: &str) -> Result<(Vec<ZoneShape>, Vec<RowError>), FileErr
             errors.push(fail("geometry", format!("zone '{name}' has no geometry")));
             continue;
         };
+        // The geometry conversion indexes [0] and [1] of every position: a position with fewer
+        // than two numbers would panic there (found by tests/fuzz_inputs.rs), so it is an error here.
+        if let Some(reason) = bad_position(&geometry.value) {
+            errors.push(fail("geometry", format!("zone '{name}': {reason}")));
+            continue;
+        }
         let shape = match &geometry.value {
             GeometryValue::Polygon { .. } => {
                 geo::Polygon::try_from(&geometry.value).map(|p| MultiPolygon::new(vec![p]))

@@ -79,7 +79,11 @@ pub fn parse_length(text: &str, default: LengthUnit, target: LengthUnit) -> Resu
         "ft" | "foot" | "feet" | "'" => LengthUnit::Foot,
         other => return Err(format!("unknown unit '{other}' (use cm, m, in or ft)")),
     };
-    Ok(value * unit.cm() / target.cm())
+    // A finite number can still overflow in the conversion (1.7e308 ft in cm): refused, never
+    // returned as infinity (found by tests/fuzz_inputs.rs).
+    Some(value * unit.cm() / target.cm())
+        .filter(|converted| converted.is_finite())
+        .ok_or_else(|| format!("'{trimmed}' is too large"))
 }
 
 #[cfg(test)]
@@ -114,6 +118,18 @@ mod tests {
         assert_relative_eq!(equivalent_dbh_cm(&[31.5]), 31.5, max_relative = 1e-15);
         // 3-4-5 triangle: two stems of 30 and 40 cm equal one of 50 cm.
         assert_relative_eq!(equivalent_dbh_cm(&[30.0, 40.0]), 50.0, max_relative = 1e-15);
+    }
+
+    // Regression (tests/fuzz_inputs.rs): the largest finite f64 in feet overflows in centimetres.
+    #[test]
+    fn lengths_that_overflow_in_conversion_are_refused() {
+        let huge = format!("{} ft", f64::MAX);
+        let error = parse_length(&huge, LengthUnit::Cm, LengthUnit::Cm).expect_err("refused");
+        assert!(error.contains("too large"), "{error}");
+        assert_eq!(
+            parse_length(&format!("{} cm", f64::MAX), LengthUnit::Cm, LengthUnit::Cm),
+            Ok(f64::MAX)
+        );
     }
 
     // NIST SP 811 B.8 factors: 12 in = 30.48 cm, 40 ft = 12.192 m.

@@ -4,8 +4,11 @@
 //! into `audit_log` by triggers (see [`audit`]).
 
 pub mod audit;
+pub mod backup;
 pub mod benefits;
 pub mod care;
+pub mod check;
+pub mod merge;
 pub mod migrate;
 pub mod report;
 pub mod roster;

@@ -75,8 +75,8 @@ impl Store {
         Ok(Some(target))
     }
 
-    /// Every audit row of a tree and of its measurements, assessments, failure modes and work orders,
-    /// oldest first.
+    /// Every audit row of a tree and of its measurements, assessments and work orders, oldest first
+    /// (failure modes belong to an assessment and show in `care history`).
     pub fn tree_history(&self, tree_id: i64) -> Result<Vec<AuditEntry>, StoreError> {
         let mut stmt = self.conn.prepare(
             "SELECT id, at, table_name, row_id, action, before_json, after_json, actor FROM audit_log
