@@ -1968,3 +1968,62 @@ fn studies_view_without_studies_says_how_to_make_one_and_help_lists_every_key() 
         "{tabs}"
     );
 }
+
+#[test]
+fn an_area_on_the_plan_view_starts_a_removal_study() {
+    let mut store = demo_store();
+    let expected;
+    {
+        let mut query = Query::new(&mut store);
+        let mut app = App::new(&query, AppSettings::default(), today()).expect("app");
+        keys(&mut app, &mut query, "S");
+        assert!(
+            app.message
+                .as_deref()
+                .is_some_and(|m| m.contains("choose an area first"))
+        );
+        app.update(Action::Show(View::Plan), &mut query, now());
+        keys(&mut app, &mut query, "v");
+        keys(&mut app, &mut query, "ll");
+        keys(&mut app, &mut query, "jj");
+        keys(&mut app, &mut query, "v");
+        assert_eq!(app.view, View::Roster);
+        expected = app
+            .roster
+            .data
+            .entries
+            .iter()
+            .filter(|e| e.status == streetwood::model::TreeStatus::Standing)
+            .filter(|e| {
+                app.roster.filters.iter().any(|f| match f {
+                    streetwood::tui::views::roster::Filter::Ids(ids, _) => ids.contains(&e.id),
+                    _ => false,
+                })
+            })
+            .count();
+        assert!(expected > 0);
+        keys(&mut app, &mut query, "S");
+        let text = screen(&mut app, &mut query, 100, 30);
+        assert!(text.contains("Name of a new removal study"), "{text}");
+        assert!(
+            text.contains("qualified arborist"),
+            "the caution on the prompt:\n{text}"
+        );
+        keys(&mut app, &mut query, "Area works");
+        key(&mut app, &mut query, KeyCode::Enter);
+        let message = app.message.clone().unwrap_or_default();
+        assert!(
+            message.contains(&format!(
+                "created the removal study 'Area works' of {expected} standing trees"
+            )),
+            "{message}"
+        );
+    }
+    let studies = store.studies().expect("studies");
+    assert!(studies.iter().any(|s| s.name == "Area works"));
+    let study = store.require_study("Area works").expect("study");
+    assert_eq!(
+        store.study_tree_rows(study.id).expect("trees").len(),
+        expected
+    );
+}

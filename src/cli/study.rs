@@ -261,17 +261,6 @@ pub fn run(inventory: &Path, command: &StudyCommand, now: DateTime<Utc>) -> Resu
     }
 }
 
-/// A default seed from the study's name (FNV-1a, 63 bits), so a study made without `--seed` still
-/// has a fixed, stored seed.
-fn seed_from_name(name: &str) -> u64 {
-    let mut h: u64 = 0xcbf2_9ce4_8422_2325;
-    for byte in name.as_bytes() {
-        h ^= u64::from(*byte);
-        h = h.wrapping_mul(0x0000_0100_0000_01b3);
-    }
-    h >> 1
-}
-
 fn check_name(field: &str, name: &str) -> Result<String, CliError> {
     let name = name.trim();
     if name.is_empty() {
@@ -290,7 +279,9 @@ fn new_study(inventory: &Path, args: &NewArgs, now: DateTime<Utc>) -> Result<(),
             "name: '{name}' contains ':', which `study compare` uses to separate a study from a plan"
         )));
     }
-    let seed = args.seed.unwrap_or_else(|| seed_from_name(&name));
+    let seed = args
+        .seed
+        .unwrap_or_else(|| crate::study::seed_from_name(&name));
     if i64::try_from(seed).is_err() {
         return Err(CliError::Input(format!(
             "--seed: {seed} is too large (at most {})",
@@ -1603,6 +1594,6 @@ mod tests {
         assert_eq!(fmt_num(12.0, 1), "12.0");
         assert_eq!(report_indices(12), vec![0, 5, 10, 11]);
         assert_eq!(report_indices(11), vec![0, 5, 10]);
-        assert_eq!(seed_from_name("a") >> 63, 0);
+        assert_eq!(crate::study::seed_from_name("a") >> 63, 0);
     }
 }

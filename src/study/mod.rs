@@ -18,3 +18,14 @@ pub mod settings;
 pub mod survival;
 
 pub use outcome::{Mode, StudyEnv, StudyError, StudyInput, StudyOutcome, run_study};
+
+/// A default seed from a study's name (FNV-1a, 63 bits), so a study made without a seed still has a
+/// fixed, stored one.
+pub fn seed_from_name(name: &str) -> u64 {
+    let mut h: u64 = 0xcbf2_9ce4_8422_2325;
+    for byte in name.as_bytes() {
+        h ^= u64::from(*byte);
+        h = h.wrapping_mul(0x0000_0100_0000_01b3);
+    }
+    h >> 1
+}

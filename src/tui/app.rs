@@ -129,6 +129,8 @@ pub enum Action {
     Remeasure,
     Card(tree_card::Scroll),
     StartRemoval,
+    /// Ask for the name of a removal study of the area chosen on the plan view.
+    StartAreaStudy,
     /// Ask to undo the latest change.
     StartUndo,
     /// A key for the field log form.
@@ -213,6 +215,8 @@ enum PromptFor {
     RemovalReason(i64),
     /// The file the year summary's HTML report goes to.
     ExportPath,
+    /// The name of a new removal study of the plan-view area.
+    StudyName,
 }
 
 /// What a yes/no question is for.
@@ -298,6 +302,11 @@ pub fn keys_of(view: View) -> &'static [KeyHelp] {
             ("s r", "sort", "sort by next column / reverse"),
             ("n", "new tree", "new tree"),
             ("m", "re-measure", "re-measure selected"),
+            (
+                "S",
+                "study of area",
+                "start a removal study of the area chosen on the plan view",
+            ),
         ],
         View::Card => &[
             ("↑↓ PgUp PgDn", "scroll", "scroll"),
@@ -535,6 +544,7 @@ impl App {
                 KeyCode::Char('r') => Some(Action::ReverseSort),
                 KeyCode::Char('n') => Some(Action::NewTree),
                 KeyCode::Char('m') => Some(Action::Remeasure),
+                KeyCode::Char('S') => Some(Action::StartAreaStudy),
                 KeyCode::Esc => Some(Action::ClearFilters),
                 _ => roster::handle_key(key).map(Action::Roster),
             },
@@ -699,6 +709,25 @@ impl App {
             Action::Card(scroll) => {
                 if let Some(card) = &mut self.card {
                     card.scroll(scroll);
+                }
+            }
+            Action::StartAreaStudy => {
+                let ids = self.area_standing_ids();
+                if ids.is_empty() {
+                    self.message = Some(
+                        "choose an area first: 4 plan view, v at one corner, move, v at the other"
+                            .to_string(),
+                    );
+                } else {
+                    self.popup = Some(Popup::Prompt(
+                        PromptFor::StudyName,
+                        format!(
+                            "Name of a new removal study of the {} standing trees in the area (Enter creates it, Esc cancels). {}",
+                            ids.len(),
+                            crate::care::risk::CAUTION
+                        ),
+                        Input::default(),
+                    ));
                 }
             }
             Action::StartRemoval => {
@@ -966,7 +995,7 @@ impl App {
                     .add_filter(Filter::Ids(ids, "area from the plan view".to_string()));
                 self.view = View::Roster;
                 self.message = Some(format!(
-                    "roster filtered to the {count} trees of the area (F clears)"
+                    "roster filtered to the {count} trees of the area (F clears; S starts a removal study of them)"
                 ));
             }
         }
@@ -1012,6 +1041,21 @@ impl App {
                     PromptFor::ExportPath => {
                         if !self.export_to(input.value(), query) {
                             self.popup = Some(Popup::Prompt(purpose, prompt, input));
+                        }
+                    }
+                    PromptFor::StudyName => {
+                        let ids = self.area_standing_ids();
+                        match query.create_study_of(input.value(), &ids, now) {
+                            Ok(added) => {
+                                self.message = Some(format!(
+                                    "created the removal study '{}' of {added} standing trees; add replanting plans with `streetwood study plan`, then see 7 Studies",
+                                    input.value().trim()
+                                ));
+                            }
+                            Err(error) => {
+                                self.message = Some(format!("not created: {error}"));
+                                self.popup = Some(Popup::Prompt(purpose, prompt, input));
+                            }
                         }
                     }
                     PromptFor::RemovalReason(id) => {
@@ -1073,6 +1117,26 @@ impl App {
             }
         }
         Ok(())
+    }
+
+    /// The standing trees of the plan-view area the roster is filtered to (empty when none).
+    fn area_standing_ids(&self) -> Vec<i64> {
+        let Some(ids) = self.roster.filters.iter().find_map(|f| match f {
+            Filter::Ids(ids, _) => Some(ids),
+            _ => None,
+        }) else {
+            return Vec::new();
+        };
+        let mut standing: Vec<i64> = self
+            .roster
+            .data
+            .entries
+            .iter()
+            .filter(|e| e.status == TreeStatus::Standing && ids.contains(&e.id))
+            .map(|e| e.id)
+            .collect();
+        standing.sort_unstable();
+        standing
     }
 
     fn apply_search(&mut self, text: &str, query: &Query<'_>) -> Result<(), StoreError> {

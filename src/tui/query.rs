@@ -285,6 +285,48 @@ impl<'a> Query<'a> {
         Ok(target)
     }
 
+    /// Creates a removal study of these trees (an area chosen on the plan view): the defaults of
+    /// `streetwood study new` (removal this year, 40 years, 1,000 runs, seed from the name, the latest
+    /// weather year). Returns how many trees it holds.
+    pub fn create_study_of(
+        &mut self,
+        name: &str,
+        tree_ids: &[i64],
+        now: DateTime<Utc>,
+    ) -> Result<usize, StoreError> {
+        use chrono::Datelike;
+        let name = name.trim();
+        if name.is_empty() || name.contains(':') {
+            return Err(StoreError::Invalid(
+                "a study needs a name (without ':')".to_string(),
+            ));
+        }
+        let study = crate::store::studies::NewStudy {
+            name: name.to_string(),
+            description: Some("trees chosen on the plan view".to_string()),
+            horizon_years: 40,
+            seed: crate::study::seed_from_name(name),
+            runs: 1000,
+            weather_year: self.store.latest_weather_year()?,
+            start_year: now.year(),
+            functional_limitation: 1.0,
+            external_limitation: 1.0,
+        };
+        let study_id = self.store.create_study(&study, now, "plan view")?;
+        let chosen: Vec<crate::study::select::Selected> = tree_ids
+            .iter()
+            .map(|id| crate::study::select::Selected {
+                tree_id: *id,
+                distance_m: None,
+            })
+            .collect();
+        let (added, _) =
+            self.store
+                .add_study_trees(study_id, &chosen, "area on the plan view", "plan view")?;
+        self.forget_benefits();
+        Ok(added)
+    }
+
     /// The removal studies (created with `streetwood study …`).
     pub fn studies(&self) -> Result<Vec<StudyListRow>, StoreError> {
         self.store.studies()
