@@ -748,6 +748,57 @@ impl Tree {
     }
 }
 
+/// Plants three field mistakes after the checks, so `streetwood check` has something to find in the
+/// demo (issue 9): a DBH that shrinks 2.8 cm (the tape over a bark wound), a re-measurement that grows
+/// 4.6 cm a year (a typo), and a young tree recorded 1.2 m tall with a DBH. Trees on Foundry Street are
+/// left alone (tests build studies there). Returns the uids changed, in that order.
+fn plant_measurement_errors(trees: &mut [Tree], streets: &[Street]) -> Vec<String> {
+    let eligible = |t: &Tree| streets[t.street].name != "Foundry Street" && t.status == "standing";
+    let mut planted = Vec::new();
+    let remeasured: Vec<usize> = trees
+        .iter()
+        .enumerate()
+        .filter(|(_, t)| eligible(t) && t.meas.len() >= 2 && !t.latest().multi)
+        .filter(|(_, t)| t.latest().date.0 - t.meas[t.meas.len() - 2].date.0 >= 365)
+        .map(|(i, _)| i)
+        .collect();
+    if let (Some(&shrink), Some(&jump)) = (remeasured.get(40), remeasured.get(80)) {
+        let t = &mut trees[shrink];
+        let before = t.meas[t.meas.len() - 2].stems[0];
+        let last = t.meas.len() - 1;
+        t.meas[last].stems = vec![f1_value(before - 2.8)];
+        planted.push(t.uid.clone());
+        let t = &mut trees[jump];
+        let previous = &t.meas[t.meas.len() - 2];
+        let years = (t.latest().date.0 - previous.date.0) as f64 / 365.25;
+        let grown = previous.stems[0] + 4.6 * years;
+        let last = t.meas.len() - 1;
+        t.meas[last].stems = vec![f1_value(grown)];
+        planted.push(t.uid.clone());
+    }
+    if let Some(young) = trees
+        .iter_mut()
+        .filter(|t| streets[t.street].name != "Foundry Street" && t.status == "standing")
+        .filter(|t| {
+            t.meas.len() == 1
+                && !t.latest().multi
+                && t.latest().dbh() < 8.0
+                && t.latest().height.is_some()
+        })
+        .nth(25)
+    {
+        let last = young.meas.len() - 1;
+        young.meas[last].height = Some(1.2);
+        young.meas[last].crown_base = None;
+        planted.push(young.uid.clone());
+    }
+    planted
+}
+
+fn f1_value(x: f64) -> f64 {
+    (x * 10.0).round() / 10.0
+}
+
 fn condition_word(dieback: f64) -> &'static str {
     if dieback >= 100.0 {
         "dead"
@@ -2284,6 +2335,9 @@ fn main() -> Res<()> {
         args.out.join("town.json"),
         serde_json::to_string_pretty(&town)? + "\n",
     )?;
+    // Planted after assessments and work orders are drawn, so those files stay as they were.
+    let mut trees = trees;
+    let planted = plant_measurement_errors(&mut trees, &streets);
     let rows = write_trees(&args.out.join("trees.csv"), &trees, &streets)?;
     write_zones(&args.out.join("zones.geojson"), &zones)?;
     write_weather(&args.out.join("weather.csv"), &days)?;
@@ -2291,7 +2345,16 @@ fn main() -> Res<()> {
     write_work_orders(&args.out.join("work_orders.csv"), &orders, &trees)?;
 
     let stats = Stats::new(&trees, &streets, &zones, rows, &assessments, &orders, &wx);
-    fs::write(args.out.join("README.md"), readme(seed, &stats))?;
+    let mut text = readme(seed, &stats);
+    text.push_str(&format!(
+        "\n## Planted mistakes\n\nThree measurements are wrong on purpose, so `streetwood check` has something to \
+find: a DBH that shrinks 2.8 cm (tree `{}`), one that grows 4.6 cm a year (tree `{}`), and a young tree \
+recorded 1.2 m tall with a DBH (tree `{}`).\n",
+        planted.first().map_or("", String::as_str),
+        planted.get(1).map_or("", String::as_str),
+        planted.get(2).map_or("", String::as_str)
+    ));
+    fs::write(args.out.join("README.md"), text)?;
     print!("{}", stats.report());
     Ok(())
 }

@@ -13,22 +13,39 @@ fn write(dir: &Path, name: &str, text: &str) -> String {
     path.to_string_lossy().into_owned()
 }
 
+/// The demo town carries three planted measurement mistakes (demo-inventory/README.md, "Planted
+/// mistakes"): `check` lists exactly those, with exit code 3, and finds nothing else wrong.
 #[test]
-fn the_demo_is_clean() {
+fn check_on_the_demo_reports_the_planted_mistakes() {
     let dir = tempfile::tempdir().expect("temp dir");
     let db = dir.path().join("demo.db");
     let db = db.to_str().expect("p");
     assert!(run(dir.path(), &["demo", "--out", db]).status.success());
     let output = run(dir.path(), &["--db", db, "check"]);
-    assert_eq!(output.status.code(), Some(0), "{}", stderr(&output));
+    assert_eq!(output.status.code(), Some(3), "{}", stderr(&output));
     let text = stdout(&output);
     for line in [
         "Integrity (PRAGMA integrity_check): ok",
         "Foreign keys: ok",
         "Orphan rows: ok",
-        "Implausible measurements (check in the field): ok",
+        "Implausible measurements (check in the field): 3",
+        "(20fd2205-39e5-4423-946e-e8e0e0997b7b): DBH shrank 2.8 cm",
+        "(6f8df9fc-ae30-4d07-9232-39ab3d4424b4): DBH grew 13.8 cm in 1094 days",
+        "(708b0ba4-3d35-4718-b89d-f846fff540d6): 2024-05-16: height 1.2 m is below breast height",
     ] {
-        assert!(text.contains(line), "{text}");
+        assert!(text.contains(line), "missing {line:?} in:\n{text}");
+    }
+    let readme = std::fs::read_to_string(concat!(
+        env!("CARGO_MANIFEST_DIR"),
+        "/demo-inventory/README.md"
+    ))
+    .expect("demo README");
+    for uid in [
+        "20fd2205-39e5-4423-946e-e8e0e0997b7b",
+        "6f8df9fc-ae30-4d07-9232-39ab3d4424b4",
+        "708b0ba4-3d35-4718-b89d-f846fff540d6",
+    ] {
+        assert!(readme.contains(uid), "the README names planted tree {uid}");
     }
 }
 
