@@ -71,12 +71,19 @@ fn main() {
     let opened = Instant::now();
     let mut query = Query::new(&mut store);
     let today = chrono::NaiveDate::from_ymd_opt(2026, 1, 1).expect("date");
-    let mut app = App::new(&query, AppSettings::default(), today).expect("app");
+    // As the TUI starts: the index loads on another thread, the first frame does not wait for it.
+    let mut app = App::new_loading(&mut query, AppSettings::default(), today).expect("app");
     let mut terminal = Terminal::new(TestBackend::new(100, 30)).expect("terminal");
     app.set_viewport(30);
     app.refresh(&mut query).expect("refresh");
     terminal.draw(|f| app.render(f)).expect("draw");
     let first_frame = opened.elapsed();
+    while app.loading_roster.is_some() {
+        std::thread::sleep(Duration::from_millis(5));
+        app.refresh(&mut query).expect("refresh");
+    }
+    terminal.draw(|f| app.render(f)).expect("draw");
+    let roster_ready = opened.elapsed();
     let now = Utc
         .with_ymd_and_hms(2026, 1, 1, 0, 0, 0)
         .single()
@@ -139,8 +146,9 @@ fn main() {
 
     println!("TUI per keystroke on {trees} trees (handle key + fetch visible rows + draw 100×30)");
     println!(
-        "open to first frame: {:.1} ms (target < 300 ms)",
-        first_frame.as_secs_f64() * 1e3
+        "open to first frame: {:.1} ms (target < 300 ms); roster index loaded after {:.1} ms, off the UI thread",
+        first_frame.as_secs_f64() * 1e3,
+        roster_ready.as_secs_f64() * 1e3
     );
     println!(
         "{:<36} {:>6} {:>9} {:>9} {:>9}",

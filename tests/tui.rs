@@ -2027,3 +2027,33 @@ fn an_area_on_the_plan_view_starts_a_removal_study() {
         expected
     );
 }
+
+/// On a file the roster index loads on another thread: the app starts (and draws) before it is there,
+/// says so, and fills the roster when it arrives.
+#[test]
+fn the_roster_loads_off_the_ui_thread() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    let path = dir.path().join("demo.db");
+    let output = common::run(dir.path(), &["demo", "--out", path.to_str().expect("path")]);
+    assert!(output.status.success());
+    let mut store = Store::open_existing(&path).expect("open");
+    let mut query = Query::new(&mut store);
+    let mut app = App::new_loading(&mut query, AppSettings::default(), today()).expect("app");
+    assert_eq!(
+        app.loading_roster,
+        Some(2497),
+        "the app exists before the index"
+    );
+    for _ in 0..400 {
+        let text = screen(&mut app, &mut query, 100, 30);
+        if app.loading_roster.is_none() {
+            break;
+        }
+        assert!(text.contains("loading the roster of 2497 trees"), "{text}");
+        std::thread::sleep(std::time::Duration::from_millis(25));
+    }
+    assert_eq!(app.loading_roster, None, "the index arrived");
+    let text = screen(&mut app, &mut query, 100, 30);
+    assert!(text.contains("tree 1 of 2497"), "{text}");
+    assert_eq!(app.roster.visible_rows().len(), 24);
+}

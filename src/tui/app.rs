@@ -273,6 +273,8 @@ pub struct App {
     pub message: Option<String>,
     /// Background work is running (shown in the tab bar).
     pub busy: bool,
+    /// The roster index is still loading (the first frame does not wait for it).
+    pub loading_roster: Option<i64>,
     popup: Option<Popup>,
     /// Where the field log returns to.
     form_return: View,
@@ -469,9 +471,17 @@ impl App {
         settings: AppSettings,
         today: chrono::NaiveDate,
     ) -> Result<Self, StoreError> {
+        App::new_with_index(query, settings, today, query.roster_index()?)
+    }
+
+    fn new_empty(
+        query: &Query<'_>,
+        settings: AppSettings,
+        today: chrono::NaiveDate,
+    ) -> Result<Self, StoreError> {
         Ok(App {
             view: View::Roster,
-            roster: roster::State::new(query.roster_index()?),
+            roster: roster::State::default(),
             card: None,
             form: field_log::State::new(&query.species()?, today, settings.us_units),
             plan: None,
@@ -483,6 +493,7 @@ impl App {
             file_label: query.file_label(),
             message: None,
             busy: false,
+            loading_roster: None,
             popup: None,
             form_return: View::Roster,
             card_return: View::Roster,
@@ -492,6 +503,31 @@ impl App {
             today,
             quit: false,
         })
+    }
+
+    /// A new app whose roster fills in when the index loaded off the UI thread arrives (see
+    /// [`Query::start_roster_index`]); everything else works at once.
+    pub fn new_loading(
+        query: &mut Query<'_>,
+        settings: AppSettings,
+        today: chrono::NaiveDate,
+    ) -> Result<Self, StoreError> {
+        let trees = query.tree_count()?;
+        query.start_roster_index();
+        let mut app = App::new_with_index(query, settings, today, Default::default())?;
+        app.loading_roster = Some(trees);
+        Ok(app)
+    }
+
+    fn new_with_index(
+        query: &Query<'_>,
+        settings: AppSettings,
+        today: chrono::NaiveDate,
+        index: crate::store::roster::RosterIndexData,
+    ) -> Result<Self, StoreError> {
+        let mut app = App::new_empty(query, settings, today)?;
+        app.roster = roster::State::new(index);
+        Ok(app)
     }
 
     /// True once the user asked to quit.
@@ -1257,6 +1293,18 @@ impl App {
     /// Fetches what the visible view shows (the roster: only its visible rows), and takes in the
     /// results of background work.
     pub fn refresh(&mut self, query: &mut Query<'_>) -> Result<(), StoreError> {
+        if let Some(index) = query.take_roster_index() {
+            self.loading_roster = None;
+            match index {
+                Ok(index) => {
+                    self.roster.reload(index);
+                    self.plan = None;
+                }
+                Err(error) => {
+                    self.message = Some(format!("error: the roster could not load: {error}"))
+                }
+            }
+        }
         if query.poll_background()
             && let Some(card) = &mut self.card
         {
@@ -1362,6 +1410,12 @@ impl App {
         }
         let status_line = match &self.message {
             Some(message) => Line::from(format!(" {message}")),
+            None if self.view == View::Roster && self.loading_roster.is_some() => {
+                Line::from(format!(
+                    " ⧗ loading the roster of {} trees… (the field log and other views work meanwhile)",
+                    self.loading_roster.unwrap_or_default()
+                ))
+            }
             None if self.view == View::Roster => roster::status_line(&self.roster),
             None if self.view == View::Care => self
                 .care

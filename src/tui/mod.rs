@@ -21,7 +21,8 @@ use query::Query;
 pub fn run(store: &mut Store, settings: app::AppSettings) -> anyhow::Result<()> {
     let mut query = Query::new(store);
     let today = chrono::Local::now().date_naive();
-    let mut app = App::new(&query, settings, today)?;
+    // The roster index loads off the UI thread, so the first frame comes at once on any size.
+    let mut app = App::new_loading(&mut query, settings, today)?;
     // The tree card's benefits need the whole inventory: start on them at once, off the UI thread.
     query.start_benefits();
     let mut terminal = ratatui::init();

@@ -48,6 +48,9 @@ pub struct Query<'a> {
     studies_pending: Vec<(StudyKey, Receiver<StudyResult>)>,
     /// Counts the writes that dropped computed results (views holding older results ask again).
     generation: u64,
+    /// The roster index loading off the UI thread at start, or already loaded (in memory).
+    roster_pending: Option<Receiver<Result<RosterIndexData, String>>>,
+    roster_ready: Option<Result<RosterIndexData, String>>,
 }
 
 /// Which run of a study.
@@ -111,7 +114,35 @@ impl<'a> Query<'a> {
             studies: Vec::new(),
             studies_pending: Vec::new(),
             generation: 0,
+            roster_pending: None,
+            roster_ready: None,
         }
+    }
+
+    /// Starts loading the roster index off the UI thread (a million trees take about a second), so
+    /// the first frame comes at once. In memory it loads at once.
+    pub fn start_roster_index(&mut self) {
+        match spawn_read(self.store, |store| {
+            store.roster_index().map_err(|e| e.to_string())
+        }) {
+            Ok(receiver) => self.roster_pending = Some(receiver),
+            Err(result) => self.roster_ready = Some(result),
+        }
+    }
+
+    /// The roster index started by [`Query::start_roster_index`], once it is there.
+    pub fn take_roster_index(&mut self) -> Option<Result<RosterIndexData, String>> {
+        if let Some(ready) = self.roster_ready.take() {
+            return Some(ready);
+        }
+        let result = try_take(self.roster_pending.as_ref()?, "loading the roster")?;
+        self.roster_pending = None;
+        Some(result)
+    }
+
+    /// Number of trees in the inventory (a quick count for the loading message).
+    pub fn tree_count(&self) -> Result<i64, StoreError> {
+        self.store.tree_count()
     }
 
     /// Starts computing the year's benefits off the UI thread (a file-backed inventory opens a second,
@@ -359,7 +390,10 @@ impl<'a> Query<'a> {
 
     /// True while background work runs.
     pub fn busy(&self) -> bool {
-        self.pending.is_some() || !self.other_pending.is_empty() || !self.studies_pending.is_empty()
+        self.pending.is_some()
+            || !self.other_pending.is_empty()
+            || !self.studies_pending.is_empty()
+            || self.roster_pending.is_some()
     }
 
     /// The compact index of every tree.
