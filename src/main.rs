@@ -25,31 +25,40 @@ fn main() -> ExitCode {
 fn open_tui(args: &Cli) -> Result<(), CliError> {
     let path = cli::inventory_path(args)?;
     let mut store = Store::open_existing(&path)?;
-    rolling_backup(&store, &path);
+    // Today's backup runs beside the TUI on its own connection, so a large file opens at once; the TUI
+    // waits for it only when it closes, and a failure is reported then (never over the screen).
+    let backup_path = path.clone();
+    let backup = std::thread::spawn(move || {
+        Store::open_existing(&backup_path)
+            .map_err(CliError::from)
+            .and_then(|copy| rolling_backup(&copy, &backup_path))
+    });
     let settings = tui::app::AppSettings {
         us_units: args.units == Some(Units::Us)
             || (args.units.is_none() && store.setting("units")?.as_deref() == Some("us")),
         no_color: std::env::var_os("NO_COLOR").is_some_and(|v| !v.is_empty()),
     };
-    tui::run(&mut store, settings).map_err(CliError::Other)
+    let result = tui::run(&mut store, settings).map_err(CliError::Other);
+    if !backup.is_finished() {
+        eprintln!("streetwood: finishing today's backup…");
+    }
+    match backup.join() {
+        Ok(Ok(())) => {}
+        Ok(Err(error)) => eprintln!("streetwood: warning: today's backup was not made: {error:#}"),
+        Err(_) => eprintln!("streetwood: warning: today's backup stopped unexpectedly"),
+    }
+    result
 }
 
 /// Today's rolling backup of the file the TUI opens (setting `backup_keep`, default 7; 0 = none), in
 /// `<data dir>/backups/<file stem>-<path hash>/` (`STREETWOOD_BACKUP_DIR` overrides the folder). A
 /// failure is reported and the TUI opens anyway: the inventory itself is untouched.
-fn rolling_backup(store: &Store, path: &std::path::Path) {
-    let result = (|| -> Result<Option<std::path::PathBuf>, CliError> {
-        let keep = match store.setting("backup_keep")? {
-            Some(value) => {
-                streetwood::settings::parse_backup_keep(&value).map_err(CliError::Input)?
-            }
-            None => streetwood::settings::DEFAULT_BACKUP_KEEP,
-        };
-        let dir = cli::rolling_backup_dir(path)?;
-        Ok(store.rolling_backup(&dir, chrono::Local::now().date_naive(), keep)?)
-    })();
-    if let Err(error) = result {
-        eprintln!("streetwood: warning: today's backup was not made: {error:#}");
-        std::thread::sleep(std::time::Duration::from_secs(2));
-    }
+fn rolling_backup(store: &Store, path: &std::path::Path) -> Result<(), CliError> {
+    let keep = match store.setting("backup_keep")? {
+        Some(value) => streetwood::settings::parse_backup_keep(&value).map_err(CliError::Input)?,
+        None => streetwood::settings::DEFAULT_BACKUP_KEEP,
+    };
+    let dir = cli::rolling_backup_dir(path)?;
+    store.rolling_backup(&dir, chrono::Local::now().date_naive(), keep)?;
+    Ok(())
 }
