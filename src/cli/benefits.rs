@@ -369,16 +369,7 @@ fn write_summary_md(
 
 /// A number with two decimals and thousands separators, for reading.
 fn grouped_thousands(x: f64) -> String {
-    let text = format!("{:.2}", x.abs());
-    let (whole, fraction) = text.split_once('.').unwrap_or((&text, "00"));
-    let mut grouped = String::new();
-    for (i, c) in whole.chars().enumerate() {
-        if i > 0 && (whole.len() - i) % 3 == 0 {
-            grouped.push(',');
-        }
-        grouped.push(c);
-    }
-    format!("{}{grouped}.{fraction}", if x < 0.0 { "-" } else { "" })
+    crate::io::report_html::grouped(x, 2)
 }
 
 /// `streetwood explain TREE`.

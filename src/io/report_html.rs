@@ -63,12 +63,17 @@ pub fn escape(text: &str) -> String {
     out
 }
 
-/// A number with thousands separators and `decimals` decimals.
+/// A number with thousands separators and `decimals` decimals; never "-0", and "–" when not finite.
+/// The one formatter of grouped numbers (reports, Markdown summaries and the TUI use it).
 pub fn grouped(x: f64, decimals: usize) -> String {
-    let text = format!("{:.*}", decimals, x.abs());
-    let (whole, fraction) = text
-        .split_once('.')
-        .map_or((text.as_str(), ""), |(w, f)| (w, f));
+    if !x.is_finite() {
+        return "–".to_string();
+    }
+    let text = format!("{:.decimals$}", x.abs());
+    let (whole, fraction) = match text.split_once('.') {
+        Some((w, f)) => (w, Some(f)),
+        None => (text.as_str(), None),
+    };
     let mut out = String::new();
     for (i, c) in whole.chars().enumerate() {
         if i > 0 && (whole.len() - i) % 3 == 0 {
@@ -76,11 +81,11 @@ pub fn grouped(x: f64, decimals: usize) -> String {
         }
         out.push(c);
     }
-    let sign = if x < 0.0 { "-" } else { "" };
-    if fraction.is_empty() {
-        format!("{sign}{out}")
-    } else {
-        format!("{sign}{out}.{fraction}")
+    let negative = x < 0.0 && text.chars().any(|c| c.is_ascii_digit() && c != '0');
+    let sign = if negative { "-" } else { "" };
+    match fraction {
+        Some(f) => format!("{sign}{out}.{f}"),
+        None => format!("{sign}{out}"),
     }
 }
 

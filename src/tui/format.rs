@@ -1,28 +1,8 @@
 //! Numbers as the views print them: thousands separators, a fixed number of decimals, never "-0".
 
-/// `x` with thousands separators and `decimals` decimals ("–" when not finite).
+/// `x` with thousands separators and `decimals` decimals ("–" when not finite, never "-0").
 pub fn num(x: f64, decimals: usize) -> String {
-    if !x.is_finite() {
-        return "–".to_string();
-    }
-    let text = format!("{:.decimals$}", x.abs());
-    let (whole, fraction) = match text.split_once('.') {
-        Some((w, f)) => (w, Some(f)),
-        None => (text.as_str(), None),
-    };
-    let mut grouped = String::new();
-    for (i, c) in whole.chars().enumerate() {
-        if i > 0 && (whole.len() - i) % 3 == 0 {
-            grouped.push(',');
-        }
-        grouped.push(c);
-    }
-    let negative = x < 0.0 && text.chars().any(|c| c.is_ascii_digit() && c != '0');
-    let sign = if negative { "-" } else { "" };
-    match fraction {
-        Some(f) => format!("{sign}{grouped}.{f}"),
-        None => format!("{sign}{grouped}"),
-    }
+    crate::io::report_html::grouped(x, decimals)
 }
 
 /// A number with as many decimals as make sense for its size (3 significant digits below 100).
