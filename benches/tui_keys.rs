@@ -112,7 +112,7 @@ fn main() {
     results.push(("scroll (j, PgDn, PgUp, End, Home)", scroll));
 
     let mut sort = Vec::new();
-    for _ in 0..16 {
+    for _ in 0..50 {
         sort.push(press(&mut app, &mut query, KeyCode::Char('s')));
         sort.push(press(&mut app, &mut query, KeyCode::Char('r')));
     }

@@ -1296,8 +1296,9 @@ impl App {
         if let Some(index) = query.take_roster_index() {
             self.loading_roster = None;
             match index {
-                Ok(index) => {
+                Ok((index, orders)) => {
                     self.roster.reload(index);
+                    self.roster.adopt_sort_orders(orders);
                     self.plan = None;
                 }
                 Err(error) => {

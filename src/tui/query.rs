@@ -7,6 +7,7 @@ use std::sync::mpsc::{Receiver, TryRecvError, channel};
 
 use chrono::{DateTime, NaiveDate, Utc};
 
+use super::views::roster::{SortOrders, all_sort_orders};
 use crate::care::assessment::Assessment;
 use crate::care::queue::{WatchItem, WorkItem};
 use crate::care::risk::RiskRating;
@@ -49,8 +50,8 @@ pub struct Query<'a> {
     /// Counts the writes that dropped computed results (views holding older results ask again).
     generation: u64,
     /// The roster index loading off the UI thread at start, or already loaded (in memory).
-    roster_pending: Option<Receiver<Result<RosterIndexData, String>>>,
-    roster_ready: Option<Result<RosterIndexData, String>>,
+    roster_pending: Option<Receiver<Result<(RosterIndexData, SortOrders), String>>>,
+    roster_ready: Option<Result<(RosterIndexData, SortOrders), String>>,
 }
 
 /// Which run of a study.
@@ -123,7 +124,9 @@ impl<'a> Query<'a> {
     /// the first frame comes at once. In memory it loads at once.
     pub fn start_roster_index(&mut self) {
         match spawn_read(self.store, |store| {
-            store.roster_index().map_err(|e| e.to_string())
+            let index = store.roster_index().map_err(|e| e.to_string())?;
+            let orders = all_sort_orders(&index.entries);
+            Ok((index, orders))
         }) {
             Ok(receiver) => self.roster_pending = Some(receiver),
             Err(result) => self.roster_ready = Some(result),
@@ -131,7 +134,8 @@ impl<'a> Query<'a> {
     }
 
     /// The roster index started by [`Query::start_roster_index`], once it is there.
-    pub fn take_roster_index(&mut self) -> Option<Result<RosterIndexData, String>> {
+    /// It comes with every column's sort order, computed on the same thread.
+    pub fn take_roster_index(&mut self) -> Option<Result<(RosterIndexData, SortOrders), String>> {
         if let Some(ready) = self.roster_ready.take() {
             return Some(ready);
         }
