@@ -1,6 +1,8 @@
 //! What the roster and tree card read: a compact index of every tree (for sorting, filtering and
 //! searching in memory without loading rows into widgets), visible rows by id, and one tree's detail.
 
+use std::collections::HashMap;
+
 use chrono::NaiveDate;
 use rusqlite::{OptionalExtension, params_from_iter};
 
@@ -111,6 +113,103 @@ const SUMMARY_SELECT: &str =
  LEFT JOIN measurements m ON m.id =
      (SELECT id FROM measurements WHERE tree_id = t.id ORDER BY measured_on DESC, id DESC LIMIT 1)";
 
+/// The columns of one roster entry (append `WHERE …` / `ORDER BY …`); read by [`read_entry`].
+const ENTRY_SELECT: &str = "SELECT t.id, t.species_id, t.street, t.house_number, z.name, t.status, m.dbh_cm,
+        m.dieback_pct, m.condition,
+        (SELECT rating FROM assessments a WHERE a.tree_id = t.id
+         ORDER BY a.assessed_on DESC, a.id DESC LIMIT 1),
+        EXISTS (SELECT 1 FROM work_orders w WHERE w.tree_id = t.id AND w.status IN ('open', 'scheduled'))
+ FROM trees t
+ LEFT JOIN zones z ON z.id = t.zone_id
+ LEFT JOIN measurements m ON m.id =
+     (SELECT id FROM measurements WHERE tree_id = t.id ORDER BY measured_on DESC, id DESC LIMIT 1)";
+
+/// Positions of names in an index's sorted name lists.
+struct EntryNames<'a> {
+    species: HashMap<i64, u32>,
+    streets: HashMap<&'a str, u32>,
+    zones: HashMap<&'a str, u32>,
+}
+
+impl<'a> EntryNames<'a> {
+    fn new(species: &[(i64, String, String)], streets: &'a [String], zones: &'a [String]) -> Self {
+        let positions = |names: &'a [String]| -> HashMap<&'a str, u32> {
+            names
+                .iter()
+                .enumerate()
+                .map(|(i, name)| (name.as_str(), i as u32))
+                .collect()
+        };
+        EntryNames {
+            species: species
+                .iter()
+                .enumerate()
+                .map(|(i, s)| (s.0, i as u32))
+                .collect(),
+            streets: positions(streets),
+            zones: positions(zones),
+        }
+    }
+}
+
+/// One roster entry from an [`ENTRY_SELECT`] row, and whether every name it points to was listed.
+fn read_entry(
+    row: &rusqlite::Row<'_>,
+    names: &EntryNames<'_>,
+) -> rusqlite::Result<(RosterEntry, bool)> {
+    let species_id: i64 = row.get(1)?;
+    let street: Option<String> = row.get(2)?;
+    let house: Option<String> = row.get(3)?;
+    let zone: Option<String> = row.get(4)?;
+    let status: String = row.get(5)?;
+    let dbh: Option<f64> = row.get(6)?;
+    let dieback: Option<f64> = row.get(7)?;
+    let condition: Option<String> = row.get(8)?;
+    let rating: Option<String> = row.get(9)?;
+    let dieback = dieback.or_else(|| {
+        condition
+            .as_deref()
+            .and_then(ConditionWord::parse)
+            .map(ConditionWord::dieback_pct)
+    });
+    let mut all_named = true;
+    let mut position = |name: Option<u32>, wanted: bool| match name {
+        Some(p) => p,
+        None => {
+            all_named &= !wanted;
+            NONE
+        }
+    };
+    let street = street.filter(|s| !s.is_empty());
+    let entry = RosterEntry {
+        id: row.get(0)?,
+        species: position(names.species.get(&species_id).copied(), true),
+        street: position(
+            street
+                .as_deref()
+                .and_then(|s| names.streets.get(s).copied()),
+            street.is_some(),
+        ),
+        house_number: house.as_deref().map(leading_number).unwrap_or(NONE),
+        zone: position(
+            zone.as_deref().and_then(|z| names.zones.get(z).copied()),
+            zone.is_some(),
+        ),
+        status: TreeStatus::parse(&status).unwrap_or(TreeStatus::Standing),
+        dbh_cm: dbh.map(|d| d as f32).unwrap_or(f32::NAN),
+        dieback_pct: dieback.map(|d| d as f32).unwrap_or(f32::NAN),
+        risk: match rating.as_deref() {
+            Some("low") => 1,
+            Some("moderate") => 2,
+            Some("high") => 3,
+            Some("extreme") => 4,
+            _ => 0,
+        },
+        open_work: row.get(10)?,
+    };
+    Ok((entry, all_named))
+}
+
 impl Store {
     /// The compact index of every tree, in id order.
     pub fn roster_index(&self) -> Result<RosterIndexData, StoreError> {
@@ -128,85 +227,61 @@ impl Store {
             stmt.query_map([], |r| r.get(0))?
                 .collect::<Result<_, _>>()?
         };
-        let zones: Vec<(i64, String)> = {
-            let mut stmt = self
-                .conn
-                .prepare("SELECT id, name FROM zones ORDER BY name")?;
-            stmt.query_map([], |r| Ok((r.get(0)?, r.get(1)?)))?
+        let zones: Vec<String> = {
+            let mut stmt = self.conn.prepare("SELECT name FROM zones ORDER BY name")?;
+            stmt.query_map([], |r| r.get(0))?
                 .collect::<Result<_, _>>()?
         };
-        let species_pos: std::collections::HashMap<i64, u32> = species
-            .iter()
-            .enumerate()
-            .map(|(i, s)| (s.0, i as u32))
-            .collect();
-        let street_pos: std::collections::HashMap<&str, u32> = streets
-            .iter()
-            .enumerate()
-            .map(|(i, s)| (s.as_str(), i as u32))
-            .collect();
-        let zone_pos: std::collections::HashMap<i64, u32> = zones
-            .iter()
-            .enumerate()
-            .map(|(i, z)| (z.0, i as u32))
-            .collect();
-        let mut stmt = self.conn.prepare(
-            "SELECT t.id, t.species_id, t.street, t.house_number, t.zone_id, t.status, m.dbh_cm, m.dieback_pct,
-                    m.condition,
-                    (SELECT rating FROM assessments a WHERE a.tree_id = t.id
-                     ORDER BY a.assessed_on DESC, a.id DESC LIMIT 1),
-                    EXISTS (SELECT 1 FROM work_orders w WHERE w.tree_id = t.id AND w.status IN ('open', 'scheduled'))
-             FROM trees t
-             LEFT JOIN measurements m ON m.id =
-                 (SELECT id FROM measurements WHERE tree_id = t.id ORDER BY measured_on DESC, id DESC LIMIT 1)
-             ORDER BY t.id",
-        )?;
+        let names = EntryNames::new(&species, &streets, &zones);
+        let mut stmt = self
+            .conn
+            .prepare(&format!("{ENTRY_SELECT} ORDER BY t.id"))?;
         let mut rows = stmt.query([])?;
         let mut entries = Vec::new();
         while let Some(row) = rows.next()? {
-            let species_id: i64 = row.get(1)?;
-            let street: Option<String> = row.get(2)?;
-            let house: Option<String> = row.get(3)?;
-            let zone: Option<i64> = row.get(4)?;
-            let status: String = row.get(5)?;
-            let dbh: Option<f64> = row.get(6)?;
-            let dieback: Option<f64> = row.get(7)?;
-            let condition: Option<String> = row.get(8)?;
-            let rating: Option<String> = row.get(9)?;
-            let dieback = dieback.or_else(|| {
-                condition
-                    .as_deref()
-                    .and_then(ConditionWord::parse)
-                    .map(ConditionWord::dieback_pct)
-            });
-            entries.push(RosterEntry {
-                id: row.get(0)?,
-                species: species_pos.get(&species_id).copied().unwrap_or(NONE),
-                street: street
-                    .as_deref()
-                    .and_then(|s| street_pos.get(s).copied())
-                    .unwrap_or(NONE),
-                house_number: house.as_deref().map(leading_number).unwrap_or(NONE),
-                zone: zone.and_then(|z| zone_pos.get(&z).copied()).unwrap_or(NONE),
-                status: TreeStatus::parse(&status).unwrap_or(TreeStatus::Standing),
-                dbh_cm: dbh.map(|d| d as f32).unwrap_or(f32::NAN),
-                dieback_pct: dieback.map(|d| d as f32).unwrap_or(f32::NAN),
-                risk: match rating.as_deref() {
-                    Some("low") => 1,
-                    Some("moderate") => 2,
-                    Some("high") => 3,
-                    Some("extreme") => 4,
-                    _ => 0,
-                },
-                open_work: row.get(10)?,
-            });
+            entries.push(read_entry(row, &names)?.0);
         }
+        drop(names);
         Ok(RosterIndexData {
             species,
             streets,
-            zones: zones.into_iter().map(|(_, name)| name).collect(),
+            zones,
             entries,
         })
+    }
+
+    /// Brings the entries of these trees (new or changed) up to date in a loaded index, without
+    /// reading the other trees: after an edit on a million-tree inventory the roster stays instant.
+    /// Returns false, leaving the index usable but stale, when a tree now names a species, street or
+    /// zone the index does not list (its name lists would shift); reload the whole index then.
+    pub fn roster_update(
+        &self,
+        index: &mut RosterIndexData,
+        ids: &[i64],
+    ) -> Result<bool, StoreError> {
+        let names = EntryNames::new(&index.species, &index.streets, &index.zones);
+        let mut fresh = Vec::with_capacity(ids.len());
+        let mut stmt = self
+            .conn
+            .prepare_cached(&format!("{ENTRY_SELECT} WHERE t.id = ?1"))?;
+        for id in ids {
+            let mut rows = stmt.query([id])?;
+            if let Some(row) = rows.next()? {
+                let (entry, all_named) = read_entry(row, &names)?;
+                if !all_named {
+                    return Ok(false);
+                }
+                fresh.push(entry);
+            }
+        }
+        drop(names);
+        for entry in fresh {
+            match index.entries.binary_search_by_key(&entry.id, |e| e.id) {
+                Ok(position) => index.entries[position] = entry,
+                Err(position) => index.entries.insert(position, entry),
+            }
+        }
+        Ok(true)
     }
 
     /// The roster rows of these trees, in the order given.
@@ -359,4 +434,60 @@ fn leading_number(text: &str) -> u32 {
         .take_while(char::is_ascii_digit)
         .collect();
     digits.parse().unwrap_or(NONE)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn demo() -> Store {
+        let mut store = Store::open_in_memory().expect("store");
+        crate::cli::demo::load_demo(&mut store).expect("demo");
+        store
+    }
+
+    /// Entries as comparable text (DBH and dieback may be NaN).
+    fn entries_text(index: &RosterIndexData) -> Vec<String> {
+        index.entries.iter().map(|e| format!("{e:?}")).collect()
+    }
+
+    // The patched index must equal a full reload: the reference is `roster_index` itself.
+    #[test]
+    fn an_update_of_a_few_trees_equals_a_full_reload() {
+        let store = demo();
+        let mut index = store.roster_index().expect("index");
+        let street = index.streets[1].clone();
+        store
+            .conn
+            .execute_batch(&format!(
+                "UPDATE trees SET street = '{street}', house_number = '7b' WHERE id = 3;
+                 UPDATE trees SET status = 'removed' WHERE id = 5;
+                 INSERT INTO measurements (tree_id, measured_on, dbh_cm, dieback_pct, created_at)
+                     VALUES (8, '2026-11-30', 61.5, 40, '2026-11-30T10:00:00Z');
+                 INSERT INTO trees (uid, species_id, street, status, created_at, updated_at)
+                     SELECT 'new-one', species_id, street, 'standing', created_at, updated_at
+                     FROM trees WHERE id = 2;"
+            ))
+            .expect("edits");
+        let new_id = store.conn.last_insert_rowid();
+        let updated = store
+            .roster_update(&mut index, &[3, 5, 8, new_id])
+            .expect("update");
+        assert!(updated);
+        let full = store.roster_index().expect("index");
+        assert_eq!(entries_text(&index), entries_text(&full));
+        assert_eq!(index.streets, full.streets);
+    }
+
+    #[test]
+    fn a_new_street_name_asks_for_a_full_reload() {
+        let store = demo();
+        let mut index = store.roster_index().expect("index");
+        store
+            .conn
+            .execute("UPDATE trees SET street = 'Aardvark Row' WHERE id = 4", [])
+            .expect("edit");
+        assert!(!store.roster_update(&mut index, &[4]).expect("update"));
+        assert!(store.roster_index().expect("index").streets[0] == "Aardvark Row");
+    }
 }

@@ -530,6 +530,30 @@ impl App {
         Ok(app)
     }
 
+    /// After a write about these trees: only their roster entries are read again (the whole index
+    /// when a new species, street or zone name appears), so an edit stays instant on a city's
+    /// inventory. While the index is still loading, loading starts again so the edit is in it.
+    pub(super) fn refresh_roster_entries(
+        &mut self,
+        ids: &[i64],
+        query: &mut Query<'_>,
+    ) -> Result<(), StoreError> {
+        if self.loading_roster.is_some() {
+            query.start_roster_index();
+            return Ok(());
+        }
+        let mut data = std::mem::take(&mut self.roster.data);
+        match query.roster_update(&mut data, ids) {
+            Ok(true) => self.roster.reload(data),
+            Ok(false) => self.roster.reload(query.roster_index()?),
+            Err(error) => {
+                self.roster.reload(data);
+                return Err(error);
+            }
+        }
+        Ok(())
+    }
+
     /// True once the user asked to quit.
     pub fn should_quit(&self) -> bool {
         self.quit
@@ -981,7 +1005,7 @@ impl App {
             .clone()
             .unwrap_or_else(|| "field log".to_string());
         let tree_id = query.save_record(record, &actor, now)?;
-        self.roster.reload(query.roster_index()?);
+        self.refresh_roster_entries(&[tree_id], query)?;
         self.plan = None;
         match self.form.mode.clone() {
             field_log::Mode::New => {
@@ -1102,7 +1126,7 @@ impl App {
                             self.popup = Some(Popup::Prompt(purpose, prompt, input));
                         } else {
                             query.mark_removed(id, now.date_naive(), &reason, "tree card", now)?;
-                            self.roster.reload(query.roster_index()?);
+                            self.refresh_roster_entries(&[id], query)?;
                             self.plan = None;
                             self.show_card(id, query)?;
                             self.message =

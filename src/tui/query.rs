@@ -405,6 +405,15 @@ impl<'a> Query<'a> {
         self.store.roster_index()
     }
 
+    /// Brings these trees' entries up to date in a loaded index (false: reload the whole index).
+    pub fn roster_update(
+        &self,
+        index: &mut RosterIndexData,
+        ids: &[i64],
+    ) -> Result<bool, StoreError> {
+        self.store.roster_update(index, ids)
+    }
+
     /// Rows of these trees, in this order (only the visible ones are ever asked for).
     pub fn roster_rows(&self, ids: &[i64]) -> Result<Vec<TreeSummary>, StoreError> {
         self.store.roster_rows(ids)

@@ -58,7 +58,7 @@ impl App {
     /// After a write about `tree_id`: the roster index, the plan, the care lists and the card (when it
     /// shows that tree) are read again.
     fn after_write(&mut self, tree_id: i64, query: &mut Query<'_>) -> Result<(), StoreError> {
-        self.roster.reload(query.roster_index()?);
+        self.refresh_roster_entries(&[tree_id], query)?;
         self.plan = None;
         self.reload_care(query)?;
         if let Some(card) = &mut self.card
