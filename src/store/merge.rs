@@ -17,7 +17,7 @@ use std::path::Path;
 use chrono::{DateTime, Utc};
 use rusqlite::types::{Value as SqlValue, ValueRef};
 use rusqlite::{Connection, OpenFlags, OptionalExtension, Transaction, params_from_iter};
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 use serde_json::{Map, Value};
 
 use super::{BUSY_TIMEOUT, Store, StoreError, backup, migrate, timestamp};
@@ -503,6 +503,7 @@ impl Store {
                 target_rows: HashMap::new(),
                 other_rows: HashMap::new(),
                 rejected_keys: HashMap::new(),
+                other_news_rows: HashSet::new(),
                 report: MergeReport {
                     other: shown.clone(),
                     other_file_id: theirs.file_id.clone(),
@@ -592,6 +593,9 @@ struct Merger<'a, 't> {
     other_rows: HashMap<&'static str, TableRows>,
     /// Keys of the other file's rows that were rejected, per table (their children are rejected too).
     rejected_keys: HashMap<&'static str, HashSet<String>>,
+    /// Local ids of the other file's rows of the table being merged that have news (an audit row above
+    /// `other_news_after`): only their equal fields can need a confirmation.
+    other_news_rows: HashSet<i64>,
     report: MergeReport,
 }
 
@@ -605,6 +609,7 @@ impl Merger<'_, '_> {
             ..TableCounts::default()
         };
         let columns = column_names(self.tx, spec.name)?;
+        self.other_news_rows = news_rows(self.other, spec.name, self.other_news_after)?;
         for row in &other.rows {
             if let Some(reason) = self.missing_parent(spec, row) {
                 self.reject(spec, &row.key, reason, &mut counts);
@@ -753,40 +758,52 @@ impl Merger<'_, '_> {
                 self.other_news_after,
                 &fields_of(&row.values),
             )?;
-            let stamps: BTreeMap<String, String> =
-                stamps.into_iter().map(|(f, s)| (f, s.changed_at)).collect();
+            let stamps: BTreeMap<String, Stamp> = stamps
+                .into_iter()
+                .map(|(f, s)| (f, Stamp::At(s.changed_at)))
+                .collect();
             save_stamps(self.tx, spec.name, &row.key, &stamps)?;
         }
         Ok(outcome)
     }
 
-    /// Merges a row present in both files; `Ok(Ok(Some(values)))` when the target row changed.
+    /// Merges a row present in both files; `Ok(Ok(Some(values)))` when the target row's values changed.
     fn update(
         &mut self,
         spec: &TableSpec,
         mine: &LogicalRow,
         theirs: &LogicalRow,
     ) -> Result<Result<Option<BTreeMap<String, Value>>, String>, StoreError> {
+        let differs = |f: &String| match (mine.values.get(f), theirs.values.get(f)) {
+            (Some(a), Some(b)) => !sync::same_value(a, b),
+            _ => false,
+        };
         let differing: Vec<String> = fields_of(&mine.values)
             .into_iter()
-            .filter(|f| match (mine.values.get(f), theirs.values.get(f)) {
-                (Some(a), Some(b)) => !sync::same_value(a, b),
-                _ => false,
-            })
+            .filter(|f| differs(f))
             .collect();
+        // Equal fields matter only where the other file has news for the row (a confirmation).
+        let compared: Vec<String> = if self.other_news_rows.contains(&theirs.id) {
+            fields_of(&mine.values)
+                .into_iter()
+                .filter(|f| theirs.values.contains_key(f))
+                .collect()
+        } else {
+            differing.clone()
+        };
         let mine_updated = text_of(mine.values.get("updated_at"));
         let their_updated = text_of(theirs.values.get("updated_at"));
         let newer_stamp = their_updated > mine_updated;
-        if differing.is_empty() && !newer_stamp {
+        if compared.is_empty() && !newer_stamp {
             return Ok(Ok(None));
         }
-        let ours = field_sides(self.tx, spec.name, mine, self.target_news_after, &differing)?;
+        let ours = field_sides(self.tx, spec.name, mine, self.target_news_after, &compared)?;
         let other = field_sides(
             self.other,
             spec.name,
             theirs,
             self.other_news_after,
-            &differing,
+            &compared,
         )?;
         let outcome = sync::merge_row(&ours, &other);
         let tree_uid = tree_of(spec, theirs);
@@ -797,9 +814,6 @@ impl Merger<'_, '_> {
                 tree_uid: tree_uid.clone(),
                 field: conflict.clone(),
             });
-        }
-        if outcome.writes.is_empty() && (!newer_stamp || differing.is_empty()) {
-            return Ok(Ok(None));
         }
         let mut sets = Vec::new();
         let mut values = Vec::new();
@@ -812,11 +826,20 @@ impl Merger<'_, '_> {
             sets.push(format!("\"{}\" = ?{}", write.field, values.len()));
             merged.insert(write.field.clone(), write.value.clone());
         }
-        if merged.contains_key("updated_at") {
+        let changes_values = !outcome.writes.is_empty() || (newer_stamp && !differing.is_empty());
+        if changes_values && merged.contains_key("updated_at") {
             let later = sync::later(&mine_updated, &their_updated).to_string();
             values.push(SqlValue::Text(later.clone()));
             sets.push(format!("\"updated_at\" = ?{}", values.len()));
             merged.insert("updated_at".to_string(), Value::String(later));
+        }
+        if sets.is_empty() {
+            match outcome.confirmations.first() {
+                // Confirmations only: an update that changes no value, so the audit log has a row of this
+                // merge for the row, whose id the confirmations name.
+                Some(first) => sets.push(format!("\"{0}\" = \"{0}\"", first.field)),
+                None => return Ok(Ok(None)),
+            }
         }
         values.push(SqlValue::Integer(mine.id));
         let sql = format!(
@@ -832,13 +855,29 @@ impl Merger<'_, '_> {
         if let Err(reason) = outcome_sql {
             return Ok(Err(format!("the merged row is refused: {reason}")));
         }
-        let stamps: BTreeMap<String, String> = outcome
+        let mut stamps: BTreeMap<String, Stamp> = outcome
             .writes
             .iter()
-            .map(|w| (w.field.clone(), w.changed_at.clone()))
+            .map(|w| (w.field.clone(), Stamp::At(w.changed_at.clone())))
             .collect();
+        if !outcome.confirmations.is_empty() {
+            let audit_id: i64 = self.tx.query_row(
+                "SELECT max(id) FROM audit_log WHERE table_name = ?1 AND row_id = ?2",
+                rusqlite::params![spec.name, mine.id],
+                |r| r.get(0),
+            )?;
+            for c in &outcome.confirmations {
+                stamps.insert(
+                    c.field.clone(),
+                    Stamp::Confirmed {
+                        at: c.changed_at.clone(),
+                        audit_id,
+                    },
+                );
+            }
+        }
         save_stamps(self.tx, spec.name, &mine.key, &stamps)?;
-        Ok(Ok(Some(merged)))
+        Ok(Ok(changes_values.then_some(merged)))
     }
 }
 
@@ -1033,17 +1072,23 @@ fn field_sides(
                 Some(before) => before.get(field) != after.get(field),
             }
         });
-        let (audit_id, changed_at) = match last {
+        let stamp = stamps.get(field);
+        let (mut audit_id, mut changed_at) = match last {
             Some((id, at, actor, _, _)) => {
-                let at = if actor.as_str() == MERGE_ACTOR {
-                    stamps.get(field).cloned().unwrap_or_else(|| (*at).clone())
-                } else {
-                    (*at).clone()
+                let at = match stamp {
+                    Some(stamp) if actor.as_str() == MERGE_ACTOR => stamp.at().to_string(),
+                    _ => (*at).clone(),
                 };
                 (*id, at)
             }
             None => (0, String::new()),
         };
+        // A merge confirmed the (equal) value after its last change: its time and audit row count.
+        if let Some(Stamp::Confirmed { at, audit_id: id }) = stamp
+            && *id > audit_id
+        {
+            (audit_id, changed_at) = (*id, at.clone());
+        }
         out.insert(
             field.clone(),
             FieldSide {
@@ -1056,11 +1101,40 @@ fn field_sides(
     Ok(out)
 }
 
+/// A field's entry in `merge_stamps`: the time of the change a merge brought in (written as a plain
+/// string, the form of migration 0005), or a confirmation: an equal value whose later change came from
+/// another file, with the audit row of the merge that recorded it (issue 10).
+#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(untagged)]
+enum Stamp {
+    At(String),
+    Confirmed { at: String, audit_id: i64 },
+}
+
+impl Stamp {
+    fn at(&self) -> &str {
+        match self {
+            Stamp::At(at) | Stamp::Confirmed { at, .. } => at,
+        }
+    }
+}
+
+/// Local ids of a table's rows with an audit row above `after`.
+fn news_rows(conn: &Connection, table: &str, after: i64) -> Result<HashSet<i64>, StoreError> {
+    let mut stmt = conn.prepare_cached(
+        "SELECT DISTINCT row_id FROM audit_log WHERE id > ?1 AND table_name = ?2",
+    )?;
+    let rows = stmt
+        .query_map(rusqlite::params![after, table], |r| r.get::<_, i64>(0))?
+        .collect::<Result<HashSet<_>, _>>()?;
+    Ok(rows)
+}
+
 fn load_stamps(
     conn: &Connection,
     table: &str,
     uid: &str,
-) -> Result<BTreeMap<String, String>, StoreError> {
+) -> Result<BTreeMap<String, Stamp>, StoreError> {
     let text: Option<String> = conn
         .query_row(
             "SELECT stamps_json FROM merge_stamps WHERE table_name = ?1 AND uid = ?2",
@@ -1069,7 +1143,7 @@ fn load_stamps(
         )
         .optional()?;
     Ok(text
-        .and_then(|t| serde_json::from_str::<BTreeMap<String, String>>(&t).ok())
+        .and_then(|t| serde_json::from_str::<BTreeMap<String, Stamp>>(&t).ok())
         .unwrap_or_default())
 }
 
@@ -1077,7 +1151,7 @@ fn save_stamps(
     tx: &Transaction<'_>,
     table: &str,
     uid: &str,
-    stamps: &BTreeMap<String, String>,
+    stamps: &BTreeMap<String, Stamp>,
 ) -> Result<(), StoreError> {
     if stamps.is_empty() {
         return Ok(());
