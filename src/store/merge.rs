@@ -11,7 +11,7 @@
 //! whose audit id is above that point is news to the other side. The decisions per field are the pure
 //! functions of [`crate::sync`].
 
-use std::collections::{BTreeMap, HashMap, HashSet};
+use std::collections::{BTreeMap, BTreeSet, HashMap, HashSet};
 use std::path::Path;
 
 use chrono::{DateTime, Utc};
@@ -148,8 +148,49 @@ pub struct MergeConflict {
     pub uid: String,
     /// The tree the row belongs to (its uid), for finding it.
     pub tree_uid: Option<String>,
+    /// That tree's street in this file, for finding it.
+    pub street: Option<String>,
     #[serde(flatten)]
     pub field: FieldConflict,
+}
+
+impl MergeConflict {
+    /// Which conflict this is, for choosing its side.
+    pub fn key(&self) -> ConflictKey {
+        ConflictKey {
+            table: self.table.clone(),
+            uid: self.uid.clone(),
+            field: self.field.field.clone(),
+        }
+    }
+}
+
+/// One field of one row: what a choice of side is for.
+#[derive(Debug, Clone, PartialEq, Eq, PartialOrd, Ord, Hash, Serialize)]
+pub struct ConflictKey {
+    pub table: String,
+    pub uid: String,
+    pub field: String,
+}
+
+/// Sides chosen by hand for conflicts (`streetwood merge --interactive`); a conflict without a pick goes
+/// to the rule's side (the later change).
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct MergeChoices {
+    /// The conflicts as the plan showed them. When given, the merge refuses, writing nothing, if the two
+    /// files now give other conflicts (either file changed since the plan).
+    pub planned: Option<Vec<MergeConflict>>,
+    pub picks: BTreeMap<ConflictKey, Side>,
+}
+
+impl MergeChoices {
+    /// Choices made on `plan` (a dry run's report).
+    pub fn for_plan(plan: &MergeReport, picks: BTreeMap<ConflictKey, Side>) -> Self {
+        MergeChoices {
+            planned: Some(plan.conflicts.clone()),
+            picks,
+        }
+    }
 }
 
 /// A row of the other file the merge did not take.
@@ -208,12 +249,34 @@ impl MergeReport {
                 t.table, t.added, t.updated, t.unchanged, t.rejected
             ));
         }
-        out.push_str(&format!("conflicts: {}\n", self.conflicts.len()));
+        let by_hand = self.conflicts.iter().filter(|c| c.field.by_hand).count();
+        out.push_str(&format!(
+            "conflicts: {}{}\n",
+            self.conflicts.len(),
+            if by_hand > 0 {
+                format!(" ({by_hand} decided by hand)")
+            } else {
+                String::new()
+            }
+        ));
+        let name = |side: Side| match side {
+            Side::Target => "this file",
+            Side::Other => "the copy",
+        };
         for c in &self.conflicts {
             let f = &c.field;
             let (won, lost) = match f.winner {
-                Side::Target => ("this file", "the copy"),
-                Side::Other => ("the copy", "this file"),
+                Side::Target => (name(Side::Target), name(Side::Other)),
+                Side::Other => (name(Side::Other), name(Side::Target)),
+            };
+            let why = if f.by_hand {
+                format!(
+                    "chosen by hand; the rule's choice was {}, {}",
+                    name(f.default_winner),
+                    f.rule.describe()
+                )
+            } else {
+                f.rule.describe().to_string()
             };
             out.push_str(&format!(
                 "  {} {}{} field {}: this file {} (changed {}), the copy {} (changed {}); kept {} ({}); {}'s value stays in the audit log\n",
@@ -230,7 +293,7 @@ impl MergeReport {
                 f.other_value,
                 f.other_changed_at,
                 won,
-                f.rule.describe(),
+                why,
                 lost
             ));
         }
@@ -429,6 +492,39 @@ impl Store {
         dry_run: bool,
         now: DateTime<Utc>,
     ) -> Result<MergeReport, StoreError> {
+        self.merge_inner(other, dry_run, now, &MergeChoices::default())
+    }
+
+    /// The merge's plan: the report of a dry run (rows, conflicts with the rule's choice, rejections);
+    /// nothing is written.
+    pub fn merge_plan(
+        &mut self,
+        other: &Path,
+        now: DateTime<Utc>,
+    ) -> Result<MergeReport, StoreError> {
+        self.merge_from(other, true, now)
+    }
+
+    /// Merges `other` like [`Store::merge_from`], with the sides of conflicts chosen in `choices` (the
+    /// rest go to the later change). The losing value stays in the audit log, as always, and the report
+    /// marks the conflicts decided by hand. Refuses, writing nothing, when a pick names no conflict of
+    /// this merge or the conflicts differ from `choices.planned`.
+    pub fn merge_from_with(
+        &mut self,
+        other: &Path,
+        now: DateTime<Utc>,
+        choices: &MergeChoices,
+    ) -> Result<MergeReport, StoreError> {
+        self.merge_inner(other, false, now, choices)
+    }
+
+    fn merge_inner(
+        &mut self,
+        other: &Path,
+        dry_run: bool,
+        now: DateTime<Utc>,
+        choices: &MergeChoices,
+    ) -> Result<MergeReport, StoreError> {
         let shown = other.display().to_string();
         if let Some(own) = self.path.as_deref()
             && let (Ok(a), Ok(b)) = (own.canonicalize(), other.canonicalize())
@@ -504,6 +600,7 @@ impl Store {
                 other_rows: HashMap::new(),
                 rejected_keys: HashMap::new(),
                 other_news_rows: HashSet::new(),
+                picks: &choices.picks,
                 report: MergeReport {
                     other: shown.clone(),
                     other_file_id: theirs.file_id.clone(),
@@ -519,6 +616,7 @@ impl Store {
             for spec in &TABLES {
                 merger.merge_table(spec)?;
             }
+            check_choices(&merger.report, choices, &shown)?;
             let own_audit_id = max_audit_id(tx)?;
             let own_txn: i64 =
                 tx.query_row("SELECT txn FROM audit_context WHERE id = 1", [], |r| {
@@ -596,6 +694,8 @@ struct Merger<'a, 't> {
     /// Local ids of the other file's rows of the table being merged that have news (an audit row above
     /// `other_news_after`): only their equal fields can need a confirmation.
     other_news_rows: HashSet<i64>,
+    /// Sides chosen by hand.
+    picks: &'a BTreeMap<ConflictKey, Side>,
     report: MergeReport,
 }
 
@@ -805,13 +905,34 @@ impl Merger<'_, '_> {
             self.other_news_after,
             &compared,
         )?;
-        let outcome = sync::merge_row(&ours, &other);
+        let outcome = sync::merge_row_with(&ours, &other, |field| {
+            self.picks
+                .get(&ConflictKey {
+                    table: spec.name.to_string(),
+                    uid: theirs.key.clone(),
+                    field: field.to_string(),
+                })
+                .copied()
+        });
         let tree_uid = tree_of(spec, theirs);
+        let street = if spec.name == "trees" {
+            Some(mine)
+        } else {
+            tree_uid.as_ref().and_then(|uid| {
+                let trees = self.target_rows.get("trees")?;
+                trees.by_key.get(uid).map(|&i| &trees.rows[i])
+            })
+        }
+        .and_then(|tree| match tree.values.get("street") {
+            Some(Value::String(street)) => Some(street.clone()),
+            _ => None,
+        });
         for conflict in &outcome.conflicts {
             self.report.conflicts.push(MergeConflict {
                 table: spec.name.to_string(),
                 uid: theirs.key.clone(),
                 tree_uid: tree_uid.clone(),
+                street: street.clone(),
                 field: conflict.clone(),
             });
         }
@@ -879,6 +1000,38 @@ impl Merger<'_, '_> {
         save_stamps(self.tx, spec.name, &mine.key, &stamps)?;
         Ok(Ok(changes_values.then_some(merged)))
     }
+}
+
+/// Refuses choices that do not fit the merge's conflicts (the files changed since the plan was shown).
+fn check_choices(
+    report: &MergeReport,
+    choices: &MergeChoices,
+    shown: &str,
+) -> Result<(), StoreError> {
+    let changed = || {
+        StoreError::Invalid(format!(
+            "the inventory or {shown} changed since the conflicts were listed; nothing was merged: run the merge again"
+        ))
+    };
+    let keys: HashSet<ConflictKey> = report.conflicts.iter().map(MergeConflict::key).collect();
+    if choices.picks.keys().any(|k| !keys.contains(k)) {
+        return Err(changed());
+    }
+    if let Some(planned) = &choices.planned {
+        let facts = |c: &MergeConflict| {
+            (
+                c.key(),
+                c.field.target_value.to_string(),
+                c.field.other_value.to_string(),
+            )
+        };
+        let now: BTreeSet<_> = report.conflicts.iter().map(facts).collect();
+        let then: BTreeSet<_> = planned.iter().map(facts).collect();
+        if now != then {
+            return Err(changed());
+        }
+    }
+    Ok(())
 }
 
 fn singular(table: &str) -> &str {
@@ -1073,27 +1226,28 @@ fn field_sides(
             }
         });
         let stamp = stamps.get(field);
-        let (mut audit_id, mut changed_at) = match last {
+        let (mut audit_id, mut changed_at, mut changed_by) = match last {
             Some((id, at, actor, _, _)) => {
                 let at = match stamp {
                     Some(stamp) if actor.as_str() == MERGE_ACTOR => stamp.at().to_string(),
                     _ => (*at).clone(),
                 };
-                (*id, at)
+                (*id, at, (*actor).clone())
             }
-            None => (0, String::new()),
+            None => (0, String::new(), String::new()),
         };
         // A merge confirmed the (equal) value after its last change: its time and audit row count.
         if let Some(Stamp::Confirmed { at, audit_id: id }) = stamp
             && *id > audit_id
         {
-            (audit_id, changed_at) = (*id, at.clone());
+            (audit_id, changed_at, changed_by) = (*id, at.clone(), MERGE_ACTOR.to_string());
         }
         out.insert(
             field.clone(),
             FieldSide {
                 value: row.values.get(field).cloned().unwrap_or(Value::Null),
                 changed_at,
+                changed_by,
                 news: audit_id > news_after,
             },
         );

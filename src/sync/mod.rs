@@ -29,6 +29,8 @@ pub struct FieldSide {
     pub value: Value,
     /// When the change that gave the field its value was made ("" when unknown: older than anything).
     pub changed_at: String,
+    /// Who made that change (the audit log's actor; "" when unknown).
+    pub changed_by: String,
     /// The change was made after the other side last saw this side's changes.
     pub news: bool,
 }
@@ -156,6 +158,8 @@ pub struct FieldConflict {
     pub target_changed_at: String,
     pub other_value: Value,
     pub other_changed_at: String,
+    pub target_changed_by: String,
+    pub other_changed_by: String,
     /// The side whose value the merge keeps.
     pub winner: Side,
     /// Why the rule picks `default_winner` (the rule's reason, also when a person chose).
@@ -217,6 +221,8 @@ pub fn merge_row_with(
                 target_changed_at: t.changed_at.clone(),
                 other_value: o.value.clone(),
                 other_changed_at: o.changed_at.clone(),
+                target_changed_by: t.changed_by.clone(),
+                other_changed_by: o.changed_by.clone(),
                 winner: decision.winner,
                 rule: decision.rule,
                 default_winner,
@@ -248,6 +254,7 @@ mod tests {
         FieldSide {
             value,
             changed_at: at.to_string(),
+            changed_by: "crew".to_string(),
             news,
         }
     }
@@ -348,6 +355,7 @@ mod tests {
             .prop_map(|(value, changed_at, news)| FieldSide {
                 value,
                 changed_at,
+                changed_by: String::new(),
                 news,
             })
     }
