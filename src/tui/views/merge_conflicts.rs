@@ -210,7 +210,8 @@ fn side_name(side: Side) -> &'static str {
     }
 }
 
-/// Where the conflict is: "tree base-0 · Elm Row · trees.street".
+/// Where the conflict is: "tree T-0012 · Mill Lane · trees.street", or for a row of a tree
+/// "tree T-0031 · Elm Row · work_orders.notes (row a1:7)".
 fn place(c: &MergeConflict) -> String {
     let mut parts = Vec::new();
     if let Some(tree) = &c.tree_uid {
@@ -219,10 +220,11 @@ fn place(c: &MergeConflict) -> String {
     if let Some(street) = c.street.as_deref().filter(|s| !s.is_empty()) {
         parts.push(street.to_string());
     }
-    if c.tree_uid.as_deref() != Some(c.uid.as_str()) {
-        parts.push(format!("{} {}", c.table, c.uid));
+    if c.tree_uid.as_deref() == Some(c.uid.as_str()) {
+        parts.push(format!("{}.{}", c.table, c.field.field));
+    } else {
+        parts.push(format!("{}.{} (row {})", c.table, c.field.field, c.uid));
     }
-    parts.push(format!("{}.{}", c.table, c.field.field));
     parts.join(" · ")
 }
 
@@ -327,7 +329,7 @@ fn review_lines(state: &State, width: usize) -> Vec<Line<'static>> {
             plan.conflicts.len()
         )));
         lines.push(Line::from(
-            "Every value that loses stays in the audit log, and the report lists it.",
+            "The report lists every value that loses; this file's values that lose stay in its audit log.",
         ));
         lines.push(Line::from(""));
         for (i, c) in plan.conflicts.iter().enumerate() {
