@@ -265,9 +265,15 @@ impl MergeReport {
         };
         for c in &self.conflicts {
             let f = &c.field;
-            let (won, lost) = match f.winner {
-                Side::Target => (name(Side::Target), name(Side::Other)),
-                Side::Other => (name(Side::Other), name(Side::Target)),
+            let (won, kept_where) = match f.winner {
+                Side::Target => (
+                    name(Side::Target),
+                    "the copy's value stays in the copy's audit log",
+                ),
+                Side::Other => (
+                    name(Side::Other),
+                    "this file's value stays in its audit log",
+                ),
             };
             let why = if f.by_hand {
                 format!(
@@ -279,7 +285,7 @@ impl MergeReport {
                 f.rule.describe().to_string()
             };
             out.push_str(&format!(
-                "  {} {}{} field {}: this file {} (changed {}), the copy {} (changed {}); kept {} ({}); {}'s value stays in the audit log\n",
+                "  {} {}{} field {}: this file {} (changed {}), the copy {} (changed {}); kept {} ({}); {}\n",
                 c.table,
                 c.uid,
                 c.tree_uid
@@ -294,7 +300,7 @@ impl MergeReport {
                 f.other_changed_at,
                 won,
                 why,
-                lost
+                kept_where
             ));
         }
         out.push_str(&format!("rejected: {}\n", self.rejected.len()));
