@@ -10,6 +10,21 @@ use streetwood::tui;
 fn main() -> ExitCode {
     let args = Cli::parse();
     let result = match &args.command {
+        Some(cli::Command::Merge {
+            other,
+            dry_run,
+            format,
+            interactive: true,
+        }) => cli::inventory_path(&args).and_then(|path| {
+            cli::merge::merge_interactive(
+                &path,
+                other,
+                *dry_run,
+                *format,
+                chrono::Utc::now(),
+                tui::merge::choose_conflicts,
+            )
+        }),
         Some(command) => cli::run(&args, command, chrono::Utc::now()),
         None => open_tui(&args),
     };

@@ -266,3 +266,40 @@ fn bad_merges_are_refused_with_exit_2_and_change_nothing() {
     );
     assert_eq!(audit(), before);
 }
+
+#[test]
+fn interactive_merge_refuses_dry_run_and_json_before_opening_a_screen() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    let d = dir.path();
+    ok(d, &["init", "office.db"]);
+    ok(d, &["--db", "office.db", "copy", "--for", "crew a", "a.db"]);
+    let audit = || query::<i64>(&d.join("office.db"), "SELECT count(*) FROM audit_log");
+    let peers = || query::<i64>(&d.join("office.db"), "SELECT count(*) FROM sync_peers");
+    let before = (audit(), peers());
+    for (extra, says) in [
+        ("--dry-run", "--interactive does not go with --dry-run"),
+        (
+            "--format=json",
+            "--interactive does not go with --format json",
+        ),
+    ] {
+        // No terminal here: a refusal must come before any screen would open.
+        let output = run(
+            d,
+            &["--db", "office.db", "merge", "a.db", "--interactive", extra],
+        );
+        assert_eq!(
+            output.status.code(),
+            Some(2),
+            "{extra}: {}",
+            stderr(&output)
+        );
+        assert!(
+            stderr(&output).contains(says),
+            "{extra}: {}",
+            stderr(&output)
+        );
+        assert!(stdout(&output).is_empty(), "{}", stdout(&output));
+    }
+    assert_eq!((audit(), peers()), before);
+}

@@ -103,6 +103,10 @@ pub enum Command {
         /// Report format.
         #[arg(long, value_enum, default_value = "text")]
         format: merge::MergeFormat,
+        /// Choose the side of each conflict on a full-screen list, review, then merge (the report
+        /// goes to standard output as text).
+        #[arg(long, short = 'i')]
+        interactive: bool,
     },
     /// Check the inventory: integrity, foreign keys, orphan rows, implausible measurements.
     /// Exit 0 when clean, 3 when there are findings to follow up.
@@ -302,7 +306,14 @@ pub fn run(
             other,
             dry_run,
             format,
+            interactive: false,
         } => merge::merge(&inventory_path(cli)?, other, *dry_run, *format, now),
+        // The conflict screen is the TUI's: src/main.rs dispatches it (the CLI never calls the UI).
+        Command::Merge {
+            dry_run, format, ..
+        } => merge::interactive_options(*dry_run, *format).and(Err(CliError::Other(
+            anyhow::anyhow!("merge --interactive runs from the streetwood program"),
+        ))),
         Command::Check { format, out } => {
             check::check(&inventory_path(cli)?, *format, out.as_ref())
         }

@@ -11,13 +11,13 @@
 //! whose audit id is above that point is news to the other side. The decisions per field are the pure
 //! functions of [`crate::sync`].
 
-use std::collections::{BTreeMap, HashMap, HashSet};
+use std::collections::{BTreeMap, BTreeSet, HashMap, HashSet};
 use std::path::Path;
 
 use chrono::{DateTime, Utc};
 use rusqlite::types::{Value as SqlValue, ValueRef};
 use rusqlite::{Connection, OpenFlags, OptionalExtension, Transaction, params_from_iter};
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 use serde_json::{Map, Value};
 
 use super::{BUSY_TIMEOUT, Store, StoreError, backup, migrate, timestamp};
@@ -148,8 +148,49 @@ pub struct MergeConflict {
     pub uid: String,
     /// The tree the row belongs to (its uid), for finding it.
     pub tree_uid: Option<String>,
+    /// That tree's street in this file, for finding it.
+    pub street: Option<String>,
     #[serde(flatten)]
     pub field: FieldConflict,
+}
+
+impl MergeConflict {
+    /// Which conflict this is, for choosing its side.
+    pub fn key(&self) -> ConflictKey {
+        ConflictKey {
+            table: self.table.clone(),
+            uid: self.uid.clone(),
+            field: self.field.field.clone(),
+        }
+    }
+}
+
+/// One field of one row: what a choice of side is for.
+#[derive(Debug, Clone, PartialEq, Eq, PartialOrd, Ord, Hash, Serialize)]
+pub struct ConflictKey {
+    pub table: String,
+    pub uid: String,
+    pub field: String,
+}
+
+/// Sides chosen by hand for conflicts (`streetwood merge --interactive`); a conflict without a pick goes
+/// to the rule's side (the later change).
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct MergeChoices {
+    /// The conflicts as the plan showed them. When given, the merge refuses, writing nothing, if the two
+    /// files now give other conflicts (either file changed since the plan).
+    pub planned: Option<Vec<MergeConflict>>,
+    pub picks: BTreeMap<ConflictKey, Side>,
+}
+
+impl MergeChoices {
+    /// Choices made on `plan` (a dry run's report).
+    pub fn for_plan(plan: &MergeReport, picks: BTreeMap<ConflictKey, Side>) -> Self {
+        MergeChoices {
+            planned: Some(plan.conflicts.clone()),
+            picks,
+        }
+    }
 }
 
 /// A row of the other file the merge did not take.
@@ -208,15 +249,43 @@ impl MergeReport {
                 t.table, t.added, t.updated, t.unchanged, t.rejected
             ));
         }
-        out.push_str(&format!("conflicts: {}\n", self.conflicts.len()));
+        let by_hand = self.conflicts.iter().filter(|c| c.field.by_hand).count();
+        out.push_str(&format!(
+            "conflicts: {}{}\n",
+            self.conflicts.len(),
+            if by_hand > 0 {
+                format!(" ({by_hand} decided by hand)")
+            } else {
+                String::new()
+            }
+        ));
+        let name = |side: Side| match side {
+            Side::Target => "this file",
+            Side::Other => "the copy",
+        };
         for c in &self.conflicts {
             let f = &c.field;
-            let (won, lost) = match f.winner {
-                Side::Target => ("this file", "the copy"),
-                Side::Other => ("the copy", "this file"),
+            let (won, kept_where) = match f.winner {
+                Side::Target => (
+                    name(Side::Target),
+                    "the copy's value stays in the copy's audit log",
+                ),
+                Side::Other => (
+                    name(Side::Other),
+                    "this file's value stays in its audit log",
+                ),
+            };
+            let why = if f.by_hand {
+                format!(
+                    "chosen by hand; the rule's choice was {}, {}",
+                    name(f.default_winner),
+                    f.rule.describe()
+                )
+            } else {
+                f.rule.describe().to_string()
             };
             out.push_str(&format!(
-                "  {} {}{} field {}: this file {} (changed {}), the copy {} (changed {}); kept {} ({}); {}'s value stays in the audit log\n",
+                "  {} {}{} field {}: this file {} (changed {}), the copy {} (changed {}); kept {} ({}); {}\n",
                 c.table,
                 c.uid,
                 c.tree_uid
@@ -230,8 +299,8 @@ impl MergeReport {
                 f.other_value,
                 f.other_changed_at,
                 won,
-                f.rule.describe(),
-                lost
+                why,
+                kept_where
             ));
         }
         out.push_str(&format!("rejected: {}\n", self.rejected.len()));
@@ -429,6 +498,39 @@ impl Store {
         dry_run: bool,
         now: DateTime<Utc>,
     ) -> Result<MergeReport, StoreError> {
+        self.merge_inner(other, dry_run, now, &MergeChoices::default())
+    }
+
+    /// The merge's plan: the report of a dry run (rows, conflicts with the rule's choice, rejections);
+    /// nothing is written.
+    pub fn merge_plan(
+        &mut self,
+        other: &Path,
+        now: DateTime<Utc>,
+    ) -> Result<MergeReport, StoreError> {
+        self.merge_from(other, true, now)
+    }
+
+    /// Merges `other` like [`Store::merge_from`], with the sides of conflicts chosen in `choices` (the
+    /// rest go to the later change). The losing value stays in the audit log, as always, and the report
+    /// marks the conflicts decided by hand. Refuses, writing nothing, when a pick names no conflict of
+    /// this merge or the conflicts differ from `choices.planned`.
+    pub fn merge_from_with(
+        &mut self,
+        other: &Path,
+        now: DateTime<Utc>,
+        choices: &MergeChoices,
+    ) -> Result<MergeReport, StoreError> {
+        self.merge_inner(other, false, now, choices)
+    }
+
+    fn merge_inner(
+        &mut self,
+        other: &Path,
+        dry_run: bool,
+        now: DateTime<Utc>,
+        choices: &MergeChoices,
+    ) -> Result<MergeReport, StoreError> {
         let shown = other.display().to_string();
         if let Some(own) = self.path.as_deref()
             && let (Ok(a), Ok(b)) = (own.canonicalize(), other.canonicalize())
@@ -503,6 +605,8 @@ impl Store {
                 target_rows: HashMap::new(),
                 other_rows: HashMap::new(),
                 rejected_keys: HashMap::new(),
+                other_news_rows: HashSet::new(),
+                picks: &choices.picks,
                 report: MergeReport {
                     other: shown.clone(),
                     other_file_id: theirs.file_id.clone(),
@@ -518,6 +622,7 @@ impl Store {
             for spec in &TABLES {
                 merger.merge_table(spec)?;
             }
+            check_choices(&merger.report, choices, &shown)?;
             let own_audit_id = max_audit_id(tx)?;
             let own_txn: i64 =
                 tx.query_row("SELECT txn FROM audit_context WHERE id = 1", [], |r| {
@@ -592,6 +697,11 @@ struct Merger<'a, 't> {
     other_rows: HashMap<&'static str, TableRows>,
     /// Keys of the other file's rows that were rejected, per table (their children are rejected too).
     rejected_keys: HashMap<&'static str, HashSet<String>>,
+    /// Local ids of the other file's rows of the table being merged that have news (an audit row above
+    /// `other_news_after`): only their equal fields can need a confirmation.
+    other_news_rows: HashSet<i64>,
+    /// Sides chosen by hand.
+    picks: &'a BTreeMap<ConflictKey, Side>,
     report: MergeReport,
 }
 
@@ -605,6 +715,7 @@ impl Merger<'_, '_> {
             ..TableCounts::default()
         };
         let columns = column_names(self.tx, spec.name)?;
+        self.other_news_rows = news_rows(self.other, spec.name, self.other_news_after)?;
         for row in &other.rows {
             if let Some(reason) = self.missing_parent(spec, row) {
                 self.reject(spec, &row.key, reason, &mut counts);
@@ -753,53 +864,83 @@ impl Merger<'_, '_> {
                 self.other_news_after,
                 &fields_of(&row.values),
             )?;
-            let stamps: BTreeMap<String, String> =
-                stamps.into_iter().map(|(f, s)| (f, s.changed_at)).collect();
+            let stamps: BTreeMap<String, Stamp> = stamps
+                .into_iter()
+                .map(|(f, s)| (f, Stamp::At(s.changed_at)))
+                .collect();
             save_stamps(self.tx, spec.name, &row.key, &stamps)?;
         }
         Ok(outcome)
     }
 
-    /// Merges a row present in both files; `Ok(Ok(Some(values)))` when the target row changed.
+    /// Merges a row present in both files; `Ok(Ok(Some(values)))` when the target row's values changed.
     fn update(
         &mut self,
         spec: &TableSpec,
         mine: &LogicalRow,
         theirs: &LogicalRow,
     ) -> Result<Result<Option<BTreeMap<String, Value>>, String>, StoreError> {
+        let differs = |f: &String| match (mine.values.get(f), theirs.values.get(f)) {
+            (Some(a), Some(b)) => !sync::same_value(a, b),
+            _ => false,
+        };
         let differing: Vec<String> = fields_of(&mine.values)
             .into_iter()
-            .filter(|f| match (mine.values.get(f), theirs.values.get(f)) {
-                (Some(a), Some(b)) => !sync::same_value(a, b),
-                _ => false,
-            })
+            .filter(|f| differs(f))
             .collect();
+        // Equal fields matter only where the other file has news for the row (a confirmation).
+        let compared: Vec<String> = if self.other_news_rows.contains(&theirs.id) {
+            fields_of(&mine.values)
+                .into_iter()
+                .filter(|f| theirs.values.contains_key(f))
+                .collect()
+        } else {
+            differing.clone()
+        };
         let mine_updated = text_of(mine.values.get("updated_at"));
         let their_updated = text_of(theirs.values.get("updated_at"));
         let newer_stamp = their_updated > mine_updated;
-        if differing.is_empty() && !newer_stamp {
+        if compared.is_empty() && !newer_stamp {
             return Ok(Ok(None));
         }
-        let ours = field_sides(self.tx, spec.name, mine, self.target_news_after, &differing)?;
+        let ours = field_sides(self.tx, spec.name, mine, self.target_news_after, &compared)?;
         let other = field_sides(
             self.other,
             spec.name,
             theirs,
             self.other_news_after,
-            &differing,
+            &compared,
         )?;
-        let outcome = sync::merge_row(&ours, &other);
+        let outcome = sync::merge_row_with(&ours, &other, |field| {
+            self.picks
+                .get(&ConflictKey {
+                    table: spec.name.to_string(),
+                    uid: theirs.key.clone(),
+                    field: field.to_string(),
+                })
+                .copied()
+        });
         let tree_uid = tree_of(spec, theirs);
+        let street = if spec.name == "trees" {
+            Some(mine)
+        } else {
+            tree_uid.as_ref().and_then(|uid| {
+                let trees = self.target_rows.get("trees")?;
+                trees.by_key.get(uid).map(|&i| &trees.rows[i])
+            })
+        }
+        .and_then(|tree| match tree.values.get("street") {
+            Some(Value::String(street)) => Some(street.clone()),
+            _ => None,
+        });
         for conflict in &outcome.conflicts {
             self.report.conflicts.push(MergeConflict {
                 table: spec.name.to_string(),
                 uid: theirs.key.clone(),
                 tree_uid: tree_uid.clone(),
+                street: street.clone(),
                 field: conflict.clone(),
             });
-        }
-        if outcome.writes.is_empty() && (!newer_stamp || differing.is_empty()) {
-            return Ok(Ok(None));
         }
         let mut sets = Vec::new();
         let mut values = Vec::new();
@@ -812,11 +953,20 @@ impl Merger<'_, '_> {
             sets.push(format!("\"{}\" = ?{}", write.field, values.len()));
             merged.insert(write.field.clone(), write.value.clone());
         }
-        if merged.contains_key("updated_at") {
+        let changes_values = !outcome.writes.is_empty() || (newer_stamp && !differing.is_empty());
+        if changes_values && merged.contains_key("updated_at") {
             let later = sync::later(&mine_updated, &their_updated).to_string();
             values.push(SqlValue::Text(later.clone()));
             sets.push(format!("\"updated_at\" = ?{}", values.len()));
             merged.insert("updated_at".to_string(), Value::String(later));
+        }
+        if sets.is_empty() {
+            match outcome.confirmations.first() {
+                // Confirmations only: an update that changes no value, so the audit log has a row of this
+                // merge for the row, whose id the confirmations name.
+                Some(first) => sets.push(format!("\"{0}\" = \"{0}\"", first.field)),
+                None => return Ok(Ok(None)),
+            }
         }
         values.push(SqlValue::Integer(mine.id));
         let sql = format!(
@@ -832,14 +982,62 @@ impl Merger<'_, '_> {
         if let Err(reason) = outcome_sql {
             return Ok(Err(format!("the merged row is refused: {reason}")));
         }
-        let stamps: BTreeMap<String, String> = outcome
+        let mut stamps: BTreeMap<String, Stamp> = outcome
             .writes
             .iter()
-            .map(|w| (w.field.clone(), w.changed_at.clone()))
+            .map(|w| (w.field.clone(), Stamp::At(w.changed_at.clone())))
             .collect();
+        if !outcome.confirmations.is_empty() {
+            let audit_id: i64 = self.tx.query_row(
+                "SELECT max(id) FROM audit_log WHERE table_name = ?1 AND row_id = ?2",
+                rusqlite::params![spec.name, mine.id],
+                |r| r.get(0),
+            )?;
+            for c in &outcome.confirmations {
+                stamps.insert(
+                    c.field.clone(),
+                    Stamp::Confirmed {
+                        at: c.changed_at.clone(),
+                        audit_id,
+                    },
+                );
+            }
+        }
         save_stamps(self.tx, spec.name, &mine.key, &stamps)?;
-        Ok(Ok(Some(merged)))
+        Ok(Ok(changes_values.then_some(merged)))
     }
+}
+
+/// Refuses choices that do not fit the merge's conflicts (the files changed since the plan was shown).
+fn check_choices(
+    report: &MergeReport,
+    choices: &MergeChoices,
+    shown: &str,
+) -> Result<(), StoreError> {
+    let changed = || {
+        StoreError::Invalid(format!(
+            "the inventory or {shown} changed since the conflicts were listed; nothing was merged: run the merge again"
+        ))
+    };
+    let keys: HashSet<ConflictKey> = report.conflicts.iter().map(MergeConflict::key).collect();
+    if choices.picks.keys().any(|k| !keys.contains(k)) {
+        return Err(changed());
+    }
+    if let Some(planned) = &choices.planned {
+        let facts = |c: &MergeConflict| {
+            (
+                c.key(),
+                c.field.target_value.to_string(),
+                c.field.other_value.to_string(),
+            )
+        };
+        let now: BTreeSet<_> = report.conflicts.iter().map(facts).collect();
+        let then: BTreeSet<_> = planned.iter().map(facts).collect();
+        if now != then {
+            return Err(changed());
+        }
+    }
+    Ok(())
 }
 
 fn singular(table: &str) -> &str {
@@ -1033,22 +1231,29 @@ fn field_sides(
                 Some(before) => before.get(field) != after.get(field),
             }
         });
-        let (audit_id, changed_at) = match last {
+        let stamp = stamps.get(field);
+        let (mut audit_id, mut changed_at, mut changed_by) = match last {
             Some((id, at, actor, _, _)) => {
-                let at = if actor.as_str() == MERGE_ACTOR {
-                    stamps.get(field).cloned().unwrap_or_else(|| (*at).clone())
-                } else {
-                    (*at).clone()
+                let at = match stamp {
+                    Some(stamp) if actor.as_str() == MERGE_ACTOR => stamp.at().to_string(),
+                    _ => (*at).clone(),
                 };
-                (*id, at)
+                (*id, at, (*actor).clone())
             }
-            None => (0, String::new()),
+            None => (0, String::new(), String::new()),
         };
+        // A merge confirmed the (equal) value after its last change: its time and audit row count.
+        if let Some(Stamp::Confirmed { at, audit_id: id }) = stamp
+            && *id > audit_id
+        {
+            (audit_id, changed_at, changed_by) = (*id, at.clone(), MERGE_ACTOR.to_string());
+        }
         out.insert(
             field.clone(),
             FieldSide {
                 value: row.values.get(field).cloned().unwrap_or(Value::Null),
                 changed_at,
+                changed_by,
                 news: audit_id > news_after,
             },
         );
@@ -1056,11 +1261,40 @@ fn field_sides(
     Ok(out)
 }
 
+/// A field's entry in `merge_stamps`: the time of the change a merge brought in (written as a plain
+/// string, the form of migration 0005), or a confirmation: an equal value whose later change came from
+/// another file, with the audit row of the merge that recorded it (issue 10).
+#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(untagged)]
+enum Stamp {
+    At(String),
+    Confirmed { at: String, audit_id: i64 },
+}
+
+impl Stamp {
+    fn at(&self) -> &str {
+        match self {
+            Stamp::At(at) | Stamp::Confirmed { at, .. } => at,
+        }
+    }
+}
+
+/// Local ids of a table's rows with an audit row above `after`.
+fn news_rows(conn: &Connection, table: &str, after: i64) -> Result<HashSet<i64>, StoreError> {
+    let mut stmt = conn.prepare_cached(
+        "SELECT DISTINCT row_id FROM audit_log WHERE id > ?1 AND table_name = ?2",
+    )?;
+    let rows = stmt
+        .query_map(rusqlite::params![after, table], |r| r.get::<_, i64>(0))?
+        .collect::<Result<HashSet<_>, _>>()?;
+    Ok(rows)
+}
+
 fn load_stamps(
     conn: &Connection,
     table: &str,
     uid: &str,
-) -> Result<BTreeMap<String, String>, StoreError> {
+) -> Result<BTreeMap<String, Stamp>, StoreError> {
     let text: Option<String> = conn
         .query_row(
             "SELECT stamps_json FROM merge_stamps WHERE table_name = ?1 AND uid = ?2",
@@ -1069,7 +1303,7 @@ fn load_stamps(
         )
         .optional()?;
     Ok(text
-        .and_then(|t| serde_json::from_str::<BTreeMap<String, String>>(&t).ok())
+        .and_then(|t| serde_json::from_str::<BTreeMap<String, Stamp>>(&t).ok())
         .unwrap_or_default())
 }
 
@@ -1077,7 +1311,7 @@ fn save_stamps(
     tx: &Transaction<'_>,
     table: &str,
     uid: &str,
-    stamps: &BTreeMap<String, String>,
+    stamps: &BTreeMap<String, Stamp>,
 ) -> Result<(), StoreError> {
     if stamps.is_empty() {
         return Ok(());

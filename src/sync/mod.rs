@@ -7,7 +7,11 @@
 //! side (made after the other side last saw this side's changes).
 //!
 //! The rule, symmetric in the two sides (so A into B and B into A give the same values):
-//! - equal values: nothing to do;
+//! - equal values: nothing to write; but when the other side's change is news and later than this
+//!   side's, this side takes over its time and records it as a change of its own (a *confirmation*), so
+//!   a third copy merged later meets the value with the time and news it has in the other file (without
+//!   it, a copy that edited A→B→A merged before one that edited A→B lost to it; in the other order it
+//!   won);
 //! - only one side's change is news: that side wins (the other side's value is what both had before);
 //! - both are news (a **conflict**: both changed the field differently since they last agreed), or
 //!   neither is (one-way merges left them apart): the later change wins; on a tie of times, the value
@@ -25,6 +29,8 @@ pub struct FieldSide {
     pub value: Value,
     /// When the change that gave the field its value was made ("" when unknown: older than anything).
     pub changed_at: String,
+    /// Who made that change (the audit log's actor; "" when unknown).
+    pub changed_by: String,
     /// The change was made after the other side last saw this side's changes.
     pub news: bool,
 }
@@ -71,6 +77,12 @@ pub struct FieldDecision {
     pub winner: Side,
     pub conflict: bool,
     pub rule: Rule,
+}
+
+/// Equal values, the other side's change is news and later: the target records the other side's time
+/// for the field as a change of its own (see the module documentation).
+pub fn confirms(target: &FieldSide, other: &FieldSide) -> bool {
+    same_value(&target.value, &other.value) && other.news && other.changed_at > target.changed_at
 }
 
 /// The canonical text of a value (how ties are broken).
@@ -146,8 +158,16 @@ pub struct FieldConflict {
     pub target_changed_at: String,
     pub other_value: Value,
     pub other_changed_at: String,
+    pub target_changed_by: String,
+    pub other_changed_by: String,
+    /// The side whose value the merge keeps.
     pub winner: Side,
+    /// Why the rule picks `default_winner` (the rule's reason, also when a person chose).
     pub rule: Rule,
+    /// The side the rule picks (the later change); `winner` differs only when chosen by hand.
+    pub default_winner: Side,
+    /// A person chose the side (`streetwood merge --interactive`).
+    pub by_hand: bool,
 }
 
 /// What a merge does to one row present in both files.
@@ -155,6 +175,8 @@ pub struct FieldConflict {
 pub struct RowMerge {
     /// Fields to set in the target (the other side won).
     pub writes: Vec<FieldWrite>,
+    /// Fields whose value is equal on both sides but whose time the target takes over ([`confirms`]).
+    pub confirmations: Vec<FieldWrite>,
     pub conflicts: Vec<FieldConflict>,
 }
 
@@ -163,19 +185,48 @@ pub fn merge_row(
     target: &BTreeMap<String, FieldSide>,
     other: &BTreeMap<String, FieldSide>,
 ) -> RowMerge {
+    merge_row_with(target, other, |_| None)
+}
+
+/// [`merge_row`] where `choose(field)` may pick the side of a conflict by hand (`None`: the rule's
+/// choice). Choices for fields that are not in conflict are not asked for.
+pub fn merge_row_with(
+    target: &BTreeMap<String, FieldSide>,
+    other: &BTreeMap<String, FieldSide>,
+    choose: impl Fn(&str) -> Option<Side>,
+) -> RowMerge {
     let mut out = RowMerge::default();
     for (field, t) in target {
         let Some(o) = other.get(field) else { continue };
-        let decision = decide(t, o);
+        let mut decision = decide(t, o);
+        if decision.rule == Rule::Equal {
+            if confirms(t, o) {
+                out.confirmations.push(FieldWrite {
+                    field: field.clone(),
+                    value: o.value.clone(),
+                    changed_at: o.changed_at.clone(),
+                });
+            }
+            continue;
+        }
         if decision.conflict {
+            let default_winner = decision.winner;
+            let chosen = choose(field);
+            if let Some(side) = chosen {
+                decision.winner = side;
+            }
             out.conflicts.push(FieldConflict {
                 field: field.clone(),
                 target_value: t.value.clone(),
                 target_changed_at: t.changed_at.clone(),
                 other_value: o.value.clone(),
                 other_changed_at: o.changed_at.clone(),
+                target_changed_by: t.changed_by.clone(),
+                other_changed_by: o.changed_by.clone(),
                 winner: decision.winner,
                 rule: decision.rule,
+                default_winner,
+                by_hand: chosen.is_some(),
             });
         }
         if decision.winner == Side::Other {
@@ -203,6 +254,7 @@ mod tests {
         FieldSide {
             value,
             changed_at: at.to_string(),
+            changed_by: "crew".to_string(),
             news,
         }
     }
@@ -242,6 +294,54 @@ mod tests {
         assert!(!decide(&a, &b).conflict);
     }
 
+    #[test]
+    fn an_equal_value_changed_later_on_the_other_side_is_confirmed() {
+        let mine = side(Value::from("Elm Row"), "", false);
+        let back = side(Value::from("Elm Row"), "2026-06-02T10:00:00.000Z", true);
+        assert!(confirms(&mine, &back));
+        // Not news, not later, or not equal: nothing to confirm.
+        assert!(!confirms(
+            &mine,
+            &side(Value::from("Elm Row"), "2026-06-02", false)
+        ));
+        assert!(!confirms(&back, &back.clone()));
+        assert!(!confirms(
+            &mine,
+            &side(Value::from("Mill Lane"), "2026-06-02", true)
+        ));
+        let target = BTreeMap::from([("street".to_string(), mine)]);
+        let other = BTreeMap::from([("street".to_string(), back)]);
+        let row = merge_row(&target, &other);
+        assert!(row.writes.is_empty() && row.conflicts.is_empty());
+        assert_eq!(row.confirmations.len(), 1);
+        assert_eq!(row.confirmations[0].changed_at, "2026-06-02T10:00:00.000Z");
+    }
+
+    #[test]
+    fn a_conflict_chosen_by_hand_keeps_the_chosen_side_and_the_rule_s_default() {
+        let target = BTreeMap::from([(
+            "notes".to_string(),
+            side(Value::from("cavity"), "2026-06-02T10:00:00.000Z", true),
+        )]);
+        let other = BTreeMap::from([(
+            "notes".to_string(),
+            side(Value::from("leans"), "2026-06-01T10:00:00.000Z", true),
+        )]);
+        let auto = merge_row(&target, &other);
+        assert!(auto.writes.is_empty());
+        assert_eq!(auto.conflicts[0].winner, Side::Target);
+        assert!(!auto.conflicts[0].by_hand);
+        let chosen = merge_row_with(&target, &other, |f| (f == "notes").then_some(Side::Other));
+        assert_eq!(chosen.writes.len(), 1);
+        assert_eq!(chosen.writes[0].value, Value::from("leans"));
+        let c = &chosen.conflicts[0];
+        assert_eq!(
+            (c.winner, c.default_winner, c.by_hand),
+            (Side::Other, Side::Target, true)
+        );
+        assert_eq!(c.rule, Rule::LaterChange);
+    }
+
     fn any_side() -> impl Strategy<Value = FieldSide> {
         (
             prop_oneof![
@@ -255,6 +355,7 @@ mod tests {
             .prop_map(|(value, changed_at, news)| FieldSide {
                 value,
                 changed_at,
+                changed_by: String::new(),
                 news,
             })
     }

@@ -4,6 +4,7 @@
 
 pub mod app;
 pub mod format;
+pub mod merge;
 pub mod query;
 pub mod views;
 pub mod widgets;

@@ -3,6 +3,7 @@
 pub mod assess_form;
 pub mod care;
 pub mod field_log;
+pub mod merge_conflicts;
 pub mod plan_view;
 pub mod roster;
 pub mod studies;
