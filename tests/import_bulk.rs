@@ -181,16 +181,7 @@ fn a_generated_inventory_gives_the_same_rows_and_audit_log_by_both_paths() {
 /// Rows that take every branch: a tree updated by a later row (in the same batch and after it),
 /// interleaved re-measurements, a repeated measurement, trees stored before the import and updated or
 /// re-measured by it, multi-stem rows, zones, text that JSON must escape.
-fn every_branch() -> (Vec<TreeImportRow>, Box<dyn Fn(&mut Store)>) {
-    let setup = |store: &mut Store| {
-        let earlier = rows_of(vec![
-            tree("s1", "Acer rubrum", 40.0, "2023-05-01"),
-            tree("s2", "Tilia cordata", 25.0, "2023-05-01"),
-        ]);
-        store
-            .import_trees_via(&earlier, "crew-b", now(), false, ImportPath::PerRow)
-            .expect("earlier import");
-    };
+fn every_branch() -> Vec<TreeImportRow> {
     let mut records = Vec::new();
     let mut a = tree("a", "Acer rubrum", 30.0, "2024-05-01");
     a.site_kind = Some(SiteKind::Verge);
@@ -254,13 +245,24 @@ fn every_branch() -> (Vec<TreeImportRow>, Box<dyn Fn(&mut Store)>) {
             None => None,
         };
     }
-    (rows, Box::new(setup))
+    rows
+}
+
+/// The trees stored before the rows of [`every_branch`] are imported.
+fn stored_before(store: &mut Store) {
+    let earlier = rows_of(vec![
+        tree("s1", "Acer rubrum", 40.0, "2023-05-01"),
+        tree("s2", "Tilia cordata", 25.0, "2023-05-01"),
+    ]);
+    store
+        .import_trees_via(&earlier, "crew-b", now(), false, ImportPath::PerRow)
+        .expect("earlier import");
 }
 
 #[test]
 fn every_branch_gives_the_same_rows_and_audit_log_by_both_paths() {
-    let (rows, setup) = every_branch();
-    let (per_row, bulk, a, b) = both_paths(&*setup, &rows);
+    let rows = every_branch();
+    let (per_row, bulk, a, b) = both_paths(&stored_before, &rows);
     let (a, b) = (a.expect("per-row import"), b.expect("bulk import"));
     assert_eq!(a, b);
     // s1 and s2 gain a zone, s2 then changes species, b its street, a its notes.
@@ -271,13 +273,13 @@ fn every_branch_gives_the_same_rows_and_audit_log_by_both_paths() {
 
 #[test]
 fn undo_of_a_bulk_import_reverts_it_whole_as_it_does_a_per_row_import() {
-    let (rows, setup) = every_branch();
-    let (mut per_row, mut bulk, a, b) = both_paths(&*setup, &rows);
+    let rows = every_branch();
+    let (mut per_row, mut bulk, a, b) = both_paths(&stored_before, &rows);
     a.expect("per-row import");
     b.expect("bulk import");
     let trees_before = {
         let mut store = fresh();
-        setup(&mut store);
+        stored_before(&mut store);
         (
             store.tree_count().expect("count"),
             store.measurement_count().expect("count"),
