@@ -421,6 +421,9 @@ fn word<T>(
 
 fn date(value: Option<FieldValue<'_>>, fail: &mut dyn FnMut(&str, String)) -> Option<NaiveDate> {
     let value = value?;
+    if let Some(date) = plain_iso_date(value.text) {
+        return Some(date);
+    }
     match NaiveDate::parse_from_str(value.text.trim(), "%Y-%m-%d") {
         Ok(date) => Some(date),
         Err(_) => {
@@ -434,6 +437,22 @@ fn date(value: Option<FieldValue<'_>>, fail: &mut dyn FnMut(&str, String)) -> Op
             None
         }
     }
+}
+
+/// A date written exactly `YYYY-MM-DD` (what nearly every file has), read without the general parser;
+/// anything else (blanks, other widths, impossible dates) is left to `NaiveDate::parse_from_str`.
+fn plain_iso_date(text: &str) -> Option<NaiveDate> {
+    let b = text.as_bytes();
+    if b.len() != 10 || b[4] != b'-' || b[7] != b'-' {
+        return None;
+    }
+    let number = |range: std::ops::Range<usize>| {
+        b[range].iter().try_fold(0u32, |n, &d| {
+            d.is_ascii_digit().then(|| n * 10 + u32::from(d - b'0'))
+        })
+    };
+    let year = i32::try_from(number(0..4)?).ok()?;
+    NaiveDate::from_ymd_opt(year, number(5..7)?, number(8..10)?)
 }
 
 /// A row that failed validation: where it was, its raw fields and every reason.
@@ -471,11 +490,14 @@ pub fn read_trees_csv(
     Ok(parsed)
 }
 
-/// The rows of a trees CSV, validated one at a time (a million-row file never sits in memory).
+/// The rows of a trees CSV, validated one at a time (a million-row file never sits in memory). One
+/// record buffer is reused for every row; a row's fields are copied out only when it is bad.
 pub struct TreeCsvRows<'a, R: Read> {
-    records: csv::StringRecordsIntoIter<R>,
+    reader: csv::Reader<R>,
+    record: csv::StringRecord,
     headers: Vec<String>,
-    columns: Vec<(Column, usize, f64)>,
+    /// Per column (in [`Column::ALL`] order): its index in the file and its factor to SI.
+    by_column: [Option<(usize, f64)>; Column::ALL.len()],
     ctx: ValidationContext<'a>,
 }
 
@@ -492,11 +514,15 @@ impl<'a, R: Read> TreeCsvRows<'a, R> {
             .iter()
             .map(str::to_string)
             .collect();
-        let columns = map_headers(&headers)?;
+        let mut by_column = [None; Column::ALL.len()];
+        for (column, index, factor) in map_headers(&headers)? {
+            by_column[column as usize] = Some((index, factor));
+        }
         Ok(TreeCsvRows {
-            records: reader.into_records(),
+            reader,
+            record: csv::StringRecord::new(),
             headers,
-            columns,
+            by_column,
             ctx,
         })
     }
@@ -506,13 +532,14 @@ impl<'a, R: Read> TreeCsvRows<'a, R> {
         &self.headers
     }
 
-    fn row(&self, record: csv::StringRecord) -> (u64, Result<TreeRecord, BadRow>) {
+    fn row(&self) -> (u64, Result<TreeRecord, BadRow>) {
+        let record = &self.record;
         let line = record.position().map(|p| p.line()).unwrap_or(0);
-        let raw: Vec<String> = record.iter().map(str::to_string).collect();
-        if raw.len() != self.headers.len() {
+        let raw = || record.iter().map(str::to_string).collect::<Vec<String>>();
+        if record.len() != self.headers.len() {
             let reason = format!(
                 "{} fields, but the header has {}",
-                raw.len(),
+                record.len(),
                 self.headers.len()
             );
             let errors = vec![RowError {
@@ -520,20 +547,23 @@ impl<'a, R: Read> TreeCsvRows<'a, R> {
                 field: "(row)".to_string(),
                 reason,
             }];
-            return (line, Err(BadRow { line, errors, raw }));
+            return (
+                line,
+                Err(BadRow {
+                    line,
+                    errors,
+                    raw: raw(),
+                }),
+            );
         }
         let get = |column: Column| {
-            self.columns
-                .iter()
-                .find(|(c, _, _)| *c == column)
-                .and_then(|(_, index, factor)| {
-                    let text = raw.get(*index)?;
-                    (!text.trim().is_empty()).then(|| FieldValue {
-                        field: self.headers[*index].as_str(),
-                        text,
-                        to_si: *factor,
-                    })
-                })
+            let (index, factor) = self.by_column[column as usize]?;
+            let text = record.get(index)?;
+            (!text.trim().is_empty()).then(|| FieldValue {
+                field: self.headers[index].as_str(),
+                text,
+                to_si: factor,
+            })
         };
         match validate_tree_fields(get, self.ctx) {
             Ok(tree) => (line, Ok(tree)),
@@ -546,7 +576,14 @@ impl<'a, R: Read> TreeCsvRows<'a, R> {
                         reason,
                     })
                     .collect();
-                (line, Err(BadRow { line, errors, raw }))
+                (
+                    line,
+                    Err(BadRow {
+                        line,
+                        errors,
+                        raw: raw(),
+                    }),
+                )
             }
         }
     }
@@ -556,8 +593,9 @@ impl<R: Read> Iterator for TreeCsvRows<'_, R> {
     type Item = (u64, Result<TreeRecord, BadRow>);
 
     fn next(&mut self) -> Option<Self::Item> {
-        match self.records.next()? {
-            Ok(record) => Some(self.row(record)),
+        match self.reader.read_record(&mut self.record) {
+            Ok(true) => Some(self.row()),
+            Ok(false) => None,
             Err(e) => {
                 let line = e.position().map(|p| p.line()).unwrap_or(0);
                 let errors = vec![RowError {

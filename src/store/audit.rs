@@ -32,49 +32,160 @@ pub fn install_triggers(conn: &Connection) -> Result<(), StoreError> {
     let mut sql = String::new();
     for table in AUDITED_TABLES {
         let columns = table_columns(conn, table)?;
-        let json_of = |alias: &str| {
-            let pairs: Vec<String> = columns
-                .iter()
-                .map(|c| format!("'{c}', {alias}.\"{c}\""))
-                .collect();
-            format!("json_object({})", pairs.join(", "))
-        };
-        let actor = "(SELECT actor FROM audit_context WHERE id = 1)";
-        let txn = "(SELECT txn FROM audit_context WHERE id = 1)";
-        let undo_of = "(SELECT undo_of FROM audit_context WHERE id = 1)";
-        for (action, event, before, after, row) in [
-            (
-                "insert",
-                "INSERT",
-                "NULL".to_string(),
-                json_of("NEW"),
-                "NEW.rowid",
-            ),
-            (
-                "update",
-                "UPDATE",
-                json_of("OLD"),
-                json_of("NEW"),
-                "NEW.rowid",
-            ),
-            (
-                "delete",
-                "DELETE",
-                json_of("OLD"),
-                "NULL".to_string(),
-                "OLD.rowid",
-            ),
-        ] {
-            sql.push_str(&format!(
-                "DROP TRIGGER IF EXISTS audit_{table}_{action};\n\
-                 CREATE TRIGGER audit_{table}_{action} AFTER {event} ON {table} BEGIN \
-                 INSERT INTO audit_log (table_name, row_id, action, before_json, after_json, actor, txn, undo_of) \
-                 VALUES ('{table}', {row}, '{action}', {before}, {after}, {actor}, {txn}, {undo_of}); END;\n"
-            ));
+        for action in ["insert", "update", "delete"] {
+            sql.push_str(&trigger_sql(table, &columns, action));
         }
     }
     conn.execute_batch(&sql)?;
     Ok(())
+}
+
+/// `json_object('col', alias."col", …)` over `columns` in table order: the JSON shape of every audit row.
+fn json_of(columns: &[String], alias: &str) -> String {
+    let pairs: Vec<String> = columns
+        .iter()
+        .map(|c| format!("'{c}', {alias}.\"{c}\""))
+        .collect();
+    format!("json_object({})", pairs.join(", "))
+}
+
+const ACTOR: &str = "(SELECT actor FROM audit_context WHERE id = 1)";
+const TXN: &str = "(SELECT txn FROM audit_context WHERE id = 1)";
+const UNDO_OF: &str = "(SELECT undo_of FROM audit_context WHERE id = 1)";
+
+/// The SQL that (re)creates one audit trigger of `table` (`action`: insert, update or delete).
+fn trigger_sql(table: &str, columns: &[String], action: &str) -> String {
+    let (event, before, after, row) = match action {
+        "insert" => (
+            "INSERT",
+            "NULL".to_string(),
+            json_of(columns, "NEW"),
+            "NEW.rowid",
+        ),
+        "update" => (
+            "UPDATE",
+            json_of(columns, "OLD"),
+            json_of(columns, "NEW"),
+            "NEW.rowid",
+        ),
+        _ => (
+            "DELETE",
+            json_of(columns, "OLD"),
+            "NULL".to_string(),
+            "OLD.rowid",
+        ),
+    };
+    format!(
+        "DROP TRIGGER IF EXISTS audit_{table}_{action};\n\
+         CREATE TRIGGER audit_{table}_{action} AFTER {event} ON {table} BEGIN \
+         INSERT INTO audit_log (table_name, row_id, action, before_json, after_json, actor, txn, undo_of) \
+         VALUES ('{table}', {row}, '{action}', {before}, {after}, {ACTOR}, {TXN}, {UNDO_OF}); END;\n"
+    )
+}
+
+/// Bulk writing with the audit log kept by hand: inside one write transaction, the insert triggers of
+/// some audited tables are dropped, the writer inserts rows without them and then records each insert
+/// with [`BulkAudit::record_inserts`] (the very rows, JSON and numbering the triggers would have
+/// written), and [`BulkAudit::finish`] recreates the triggers before the commit. Dropping and
+/// recreating happen in the caller's transaction: other connections never see the log without its
+/// triggers, and a rollback or a crash brings them back with everything else.
+pub struct BulkAudit {
+    tables: Vec<&'static str>,
+    /// One `INSERT INTO audit_log … SELECT` per batch: `?1` is a JSON array of the inserted rows in
+    /// the order the triggers would have fired, each as `rowid * 8 + table index`.
+    record_sql: String,
+}
+
+impl BulkAudit {
+    /// Drops the insert triggers of `tables` (audited tables) inside the caller's transaction.
+    pub fn begin(conn: &Connection, tables: &[&'static str]) -> Result<Self, StoreError> {
+        if tables.len() > 8 {
+            return Err(StoreError::Invalid(
+                "bulk audit: at most 8 tables at once".to_string(),
+            ));
+        }
+        let mut cases = String::new();
+        let mut drops = String::new();
+        for (index, table) in tables.iter().enumerate() {
+            if !AUDITED_TABLES.contains(table) {
+                return Err(StoreError::Invalid(format!(
+                    "'{table}' is not an audited table"
+                )));
+            }
+            let columns = table_columns(conn, table)?;
+            cases.push_str(&format!(
+                " WHEN {index} THEN (SELECT {json} FROM {table} r WHERE r.rowid = j.value / 8)",
+                json = json_of(&columns, "r")
+            ));
+            drops.push_str(&format!("DROP TRIGGER IF EXISTS audit_{table}_insert;\n"));
+        }
+        let names: Vec<String> = tables
+            .iter()
+            .enumerate()
+            .map(|(i, t)| format!("WHEN {i} THEN '{t}'"))
+            .collect();
+        let record_sql = format!(
+            "INSERT INTO audit_log (table_name, row_id, action, before_json, after_json, actor, txn, undo_of) \
+             SELECT CASE j.value % 8 {names} END, j.value / 8, 'insert', NULL, \
+                    CASE j.value % 8{cases} END, {ACTOR}, {TXN}, {UNDO_OF} \
+             FROM json_each(?1) j ORDER BY j.key",
+            names = names.join(" ")
+        );
+        conn.execute_batch(&drops)?;
+        Ok(BulkAudit {
+            tables: tables.to_vec(),
+            record_sql,
+        })
+    }
+
+    /// Writes the audit rows of inserted rows, in order: `(index into the tables given to
+    /// [`BulkAudit::begin`], rowid)`. Each row is recorded as it is now, so call this before anything
+    /// changes the rows again.
+    pub fn record_inserts(
+        &self,
+        conn: &Connection,
+        inserted: &[(usize, i64)],
+    ) -> Result<(), StoreError> {
+        if inserted.is_empty() {
+            return Ok(());
+        }
+        let mut list = String::with_capacity(inserted.len() * 12 + 2);
+        list.push('[');
+        for (n, &(table, rowid)) in inserted.iter().enumerate() {
+            let code = rowid
+                .checked_mul(8)
+                .filter(|_| rowid > 0 && table < self.tables.len())
+                .map(|c| c + table as i64)
+                .ok_or_else(|| {
+                    StoreError::Invalid(format!(
+                        "bulk audit: cannot record row {rowid} of table {table}"
+                    ))
+                })?;
+            if n > 0 {
+                list.push(',');
+            }
+            list.push_str(&code.to_string());
+        }
+        list.push(']');
+        let written = conn.prepare_cached(&self.record_sql)?.execute([list])?;
+        if written != inserted.len() {
+            return Err(StoreError::Invalid(format!(
+                "bulk audit: {written} audit rows written for {} inserted rows",
+                inserted.len()
+            )));
+        }
+        Ok(())
+    }
+
+    /// Recreates the insert triggers from the live schema (the same SQL [`install_triggers`] writes).
+    pub fn finish(self, conn: &Connection) -> Result<(), StoreError> {
+        let mut sql = String::new();
+        for table in &self.tables {
+            sql.push_str(&trigger_sql(table, &table_columns(conn, table)?, "insert"));
+        }
+        conn.execute_batch(&sql)?;
+        Ok(())
+    }
 }
 
 fn table_columns(conn: &Connection, table: &str) -> Result<Vec<String>, StoreError> {
