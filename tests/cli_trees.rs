@@ -180,7 +180,7 @@ fn repeated_uid_adds_a_measurement_and_reimport_changes_nothing() {
     let output = run(dir.path(), &["--db", &db, "import", "trees", &file]);
     assert!(output.status.success(), "{}", stderr(&output));
     assert!(
-        stderr(&output).contains("1 trees added, 0 trees updated, 2 measurements added"),
+        stderr(&output).contains("1 tree added, 0 trees updated, 2 measurements added"),
         "{}",
         stderr(&output)
     );

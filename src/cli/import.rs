@@ -176,6 +176,11 @@ fn import_csv_stream(
     Ok(())
 }
 
+/// "1 tree", "2 trees".
+fn counted(n: usize, noun: &str) -> String {
+    format!("{n} {noun}{}", if n == 1 { "" } else { "s" })
+}
+
 fn report_outcome(
     file: &Path,
     outcome: &crate::store::trees::ImportOutcome,
@@ -185,11 +190,11 @@ fn report_outcome(
 ) {
     let verb = if dry_run { "would import" } else { "imported" };
     eprintln!(
-        "{verb} {}: {} trees added, {} trees updated, {} measurements added, {} unchanged{}",
+        "{verb} {}: {} added, {} updated, {} added, {} unchanged{}",
         file.display(),
-        outcome.trees_added,
-        outcome.trees_updated,
-        outcome.measurements_added,
+        counted(outcome.trees_added, "tree"),
+        counted(outcome.trees_updated, "tree"),
+        counted(outcome.measurements_added, "measurement"),
         outcome.measurements_unchanged,
         if dry_run {
             " (dry run: nothing written)"
