@@ -106,6 +106,22 @@ fn parallel_rows_are_the_serial_rows_bit_for_bit() {
         assert_same_rows(&format!("{parallelism:?}"), &serial, &parallel);
     }
 
+    // A map applied on the pool (here: the exact text of each row) reaches the caller in tree order.
+    let setup = store.year_setup(None).expect("a weather year");
+    let mut mapped = Vec::new();
+    store
+        .for_each_benefit_mapped(
+            &setup,
+            Parallelism::Threads(3),
+            |row| exact(&row),
+            |text| {
+                mapped.push(text);
+                Ok::<(), streetwood::store::StoreError>(())
+            },
+        )
+        .expect("benefits");
+    assert_eq!(mapped, serial.iter().map(exact).collect::<Vec<_>>());
+
     // Summaries add the rows in the same order, so their totals are identical too.
     let summarize = |rows: &[BenefitRow]| {
         let mut s = Summarizer::new(GroupBy::Species);

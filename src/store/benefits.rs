@@ -314,24 +314,38 @@ impl Store {
         &self,
         setup: &YearSetup,
         parallelism: Parallelism,
-        mut visit: impl FnMut(BenefitRow) -> Result<(), E>,
+        visit: impl FnMut(BenefitRow) -> Result<(), E>,
+    ) -> Result<usize, E> {
+        self.for_each_benefit_mapped(setup, parallelism, |row| row, visit)
+    }
+
+    /// [`Store::for_each_benefit_with`], with `map` applied to each row on the pool beside its
+    /// computation (for instance turning it into output cells), and `visit` given the results serially
+    /// in tree id order. `map` must be a pure function of the row for the output not to depend on the
+    /// threads.
+    pub fn for_each_benefit_mapped<T: Send, E: From<StoreError>>(
+        &self,
+        setup: &YearSetup,
+        parallelism: Parallelism,
+        map: impl Fn(BenefitRow) -> T + Sync,
+        mut visit: impl FnMut(T) -> Result<(), E>,
     ) -> Result<usize, E> {
         let samples = self.imputer_samples(setup)?;
         let imputer = imputer_from_samples(&samples, &setup.params);
         drop(samples);
         let ctx = YearContext::new(&imputer, &setup.weather, &setup.settings);
-        let row_of = |tree: InventoryTree| into_benefit_row(tree, &setup.params, &ctx);
+        let item_of = |tree: InventoryTree| into_benefit_row(tree, &setup.params, &ctx).map(&map);
         match parallelism {
             Parallelism::Serial => {
                 self.for_each_standing_tree(setup.year, &setup.species, |tree| {
-                    match row_of(tree) {
-                        Some(row) => visit(row),
+                    match item_of(tree) {
+                        Some(item) => visit(item),
                         None => Ok(()),
                     }
                 })?;
             }
             Parallelism::AllCores => {
-                rayon::in_place_scope(|scope| self.pipeline(setup, scope, &row_of, &mut visit))?;
+                rayon::in_place_scope(|scope| self.pipeline(setup, scope, &item_of, &mut visit))?;
             }
             Parallelism::Threads(n) => {
                 let pool = rayon::ThreadPoolBuilder::new()
@@ -340,7 +354,7 @@ impl Store {
                     .map_err(|e| {
                         StoreError::Invalid(format!("could not start {n} threads: {e}"))
                     })?;
-                pool.in_place_scope(|scope| self.pipeline(setup, scope, &row_of, &mut visit))?;
+                pool.in_place_scope(|scope| self.pipeline(setup, scope, &item_of, &mut visit))?;
             }
         }
         let standing: i64 = self
@@ -357,35 +371,35 @@ impl Store {
     /// The batched pipeline of [`Store::for_each_benefit_with`]: batch k is computed by a task of
     /// `scope` (its trees in parallel, collected in input order) while this thread hands batch k − 1
     /// to `visit` and reads batch k + 1.
-    fn pipeline<'scope, E, R>(
+    fn pipeline<'scope, T, E, R>(
         &self,
         setup: &YearSetup,
         scope: &rayon::Scope<'scope>,
-        row_of: &'scope R,
-        visit: &mut impl FnMut(BenefitRow) -> Result<(), E>,
+        item_of: &'scope R,
+        visit: &mut impl FnMut(T) -> Result<(), E>,
     ) -> Result<(), E>
     where
+        T: Send + 'scope,
         E: From<StoreError>,
-        R: Fn(InventoryTree) -> Option<BenefitRow> + Sync,
+        R: Fn(InventoryTree) -> Option<T> + Sync,
     {
         use rayon::prelude::*;
         use std::collections::VecDeque;
         use std::sync::mpsc::{Receiver, sync_channel};
 
-        type Batch = Vec<Option<BenefitRow>>;
-        let mut in_flight: VecDeque<Receiver<Batch>> = VecDeque::new();
-        let mut deliver = |batch: Receiver<Batch>| -> Result<(), E> {
-            let rows = batch.recv().map_err(|_| {
+        let mut in_flight: VecDeque<Receiver<Vec<Option<T>>>> = VecDeque::new();
+        let mut deliver = |batch: Receiver<Vec<Option<T>>>| -> Result<(), E> {
+            let items = batch.recv().map_err(|_| {
                 StoreError::Invalid("a thread computing benefits stopped".to_string())
             })?;
-            rows.into_iter().flatten().try_for_each(&mut *visit)
+            items.into_iter().flatten().try_for_each(&mut *visit)
         };
         let spawn = |trees: Vec<InventoryTree>| {
             let (done, result) = sync_channel(1);
             scope.spawn(move |_| {
-                let rows: Batch = trees.into_par_iter().map(row_of).collect();
+                let items: Vec<Option<T>> = trees.into_par_iter().map(item_of).collect();
                 // The receiver is gone only when the caller stopped on an error.
-                let _ = done.send(rows);
+                let _ = done.send(items);
             });
             result
         };
