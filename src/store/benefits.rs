@@ -345,7 +345,10 @@ impl Store {
                 })?;
             }
             Parallelism::AllCores => {
-                rayon::in_place_scope(|scope| self.pipeline(setup, scope, &item_of, &mut visit))?;
+                let lanes = rayon::current_num_threads();
+                rayon::in_place_scope(|scope| {
+                    self.pipeline(setup, scope, lanes, &item_of, &mut visit)
+                })?;
             }
             Parallelism::Threads(n) => {
                 let pool = rayon::ThreadPoolBuilder::new()
@@ -354,7 +357,7 @@ impl Store {
                     .map_err(|e| {
                         StoreError::Invalid(format!("could not start {n} threads: {e}"))
                     })?;
-                pool.in_place_scope(|scope| self.pipeline(setup, scope, &item_of, &mut visit))?;
+                pool.in_place_scope(|scope| self.pipeline(setup, scope, n, &item_of, &mut visit))?;
             }
         }
         let standing: i64 = self
@@ -368,13 +371,16 @@ impl Store {
         Ok(standing as usize)
     }
 
-    /// The batched pipeline of [`Store::for_each_benefit_with`]: batch k is computed by a task of
-    /// `scope` (its trees in parallel, collected in input order) while this thread hands batch k − 1
-    /// to `visit` and reads batch k + 1.
+    /// The batched pipeline of [`Store::for_each_benefit_with`]: each batch is one task of `scope`
+    /// (its trees in input order), up to `lanes` batches computing at once on the pool's threads, while
+    /// this thread reads the next batch and hands the oldest finished one to `visit`. One task per
+    /// batch rather than a `par_iter` over its trees: the computation is small next to the reads, and
+    /// splitting a batch across threads cost more CPU than it saved (measured on 2 cores).
     fn pipeline<'scope, T, E, R>(
         &self,
         setup: &YearSetup,
         scope: &rayon::Scope<'scope>,
+        lanes: usize,
         item_of: &'scope R,
         visit: &mut impl FnMut(T) -> Result<(), E>,
     ) -> Result<(), E>
@@ -383,7 +389,6 @@ impl Store {
         E: From<StoreError>,
         R: Fn(InventoryTree) -> Option<T> + Sync,
     {
-        use rayon::prelude::*;
         use std::collections::VecDeque;
         use std::sync::mpsc::{Receiver, sync_channel};
 
@@ -397,7 +402,7 @@ impl Store {
         let spawn = |trees: Vec<InventoryTree>| {
             let (done, result) = sync_channel(1);
             scope.spawn(move |_| {
-                let items: Vec<Option<T>> = trees.into_par_iter().map(item_of).collect();
+                let items: Vec<Option<T>> = trees.into_iter().map(item_of).collect();
                 // The receiver is gone only when the caller stopped on an error.
                 let _ = done.send(items);
             });
@@ -409,7 +414,7 @@ impl Store {
             if batch.len() == BATCH_TREES {
                 let full = std::mem::replace(&mut batch, Vec::with_capacity(BATCH_TREES));
                 in_flight.push_back(spawn(full));
-                if in_flight.len() > 1
+                if in_flight.len() > lanes.max(1)
                     && let Some(previous) = in_flight.pop_front()
                 {
                     deliver(previous)?;
