@@ -202,7 +202,7 @@ fn threads_setting_parses() {
     assert_eq!(Parallelism::parse("").ok(), Some(Parallelism::AllCores));
     assert_eq!(Parallelism::parse("6").ok(), Some(Parallelism::Threads(6)));
     for bad in ["-1", "two", "1.5"] {
-        let message = Parallelism::parse(bad).err().expect("refused").to_string();
+        let message = Parallelism::parse(bad).expect_err("refused").to_string();
         assert!(
             message.contains(THREADS_ENV) && message.contains(bad),
             "{message}"

@@ -241,7 +241,8 @@ fn basis_line(year: i32, station: &StationInfo, days_held: i64, p: &Prices) -> S
 }
 
 /// Trees per batch of the parallel engine: read on the calling thread, computed on the pool, handed
-/// to the caller in order. About 4,096 × (tree + row) ≈ a few MB per batch in flight (at most three).
+/// to the caller in order. About 4,096 × (tree + row) ≈ a few MB per batch; at most one batch per pool
+/// thread is in flight, plus the one being read and the one being handed over.
 pub const BATCH_TREES: usize = 4096;
 
 /// The environment variable that sets the engine's threads: `1` computes on the calling thread only,
