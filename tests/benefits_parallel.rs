@@ -172,7 +172,7 @@ fn cli_outputs_are_byte_identical_serial_and_parallel() {
         let serial = run_threads(dir.path(), Some("1"), &args);
         assert!(serial.status.success(), "{args:?}: {}", stderr(&serial));
         assert!(stdout(&serial).lines().count() > 2, "{args:?}");
-        for threads in [None, Some("3")] {
+        for threads in [None, Some("0"), Some("3")] {
             let parallel = run_threads(dir.path(), threads, &args);
             assert!(parallel.status.success(), "{args:?}: {}", stderr(&parallel));
             assert!(
@@ -199,7 +199,7 @@ fn cli_outputs_are_byte_identical_serial_and_parallel() {
 fn threads_setting_parses() {
     assert_eq!(Parallelism::parse("1").ok(), Some(Parallelism::Serial));
     assert_eq!(Parallelism::parse(" 0 ").ok(), Some(Parallelism::AllCores));
-    assert_eq!(Parallelism::parse("").ok(), Some(Parallelism::AllCores));
+    assert_eq!(Parallelism::parse("").ok(), Some(Parallelism::Serial));
     assert_eq!(Parallelism::parse("6").ok(), Some(Parallelism::Threads(6)));
     for bad in ["-1", "two", "1.5"] {
         let message = Parallelism::parse(bad).expect_err("refused").to_string();

@@ -245,9 +245,11 @@ fn basis_line(year: i32, station: &StationInfo, days_held: i64, p: &Prices) -> S
 /// thread is in flight, plus the one being read and the one being handed over.
 pub const BATCH_TREES: usize = 4096;
 
-/// The environment variable that sets the engine's threads: `1` computes on the calling thread only,
-/// `0` or unset one thread per core (rayon's default, which `RAYON_NUM_THREADS` also sets), `N` a
-/// pool of N threads.
+/// The environment variable that sets the engine's threads: unset, empty or `1` computes on the
+/// calling thread only (the default: on a 2-core machine the computation is small next to the SQLite
+/// reads and handing batches to other threads cost more than it saved, DEVELOPERS.md "The benefit
+/// engine at city scale"); `0` one thread per core (rayon's default, which `RAYON_NUM_THREADS` also
+/// sets); `N` a pool of N threads.
 pub const THREADS_ENV: &str = "STREETWOOD_THREADS";
 
 /// How [`Store::for_each_benefit_with`] spreads the per-tree computation. Every choice gives the same
@@ -264,22 +266,22 @@ pub enum Parallelism {
 }
 
 impl Parallelism {
-    /// From [`THREADS_ENV`] (unset: [`Parallelism::AllCores`]).
+    /// From [`THREADS_ENV`] (unset: [`Parallelism::Serial`]).
     pub fn from_env() -> Result<Self, StoreError> {
         match std::env::var(THREADS_ENV) {
             Ok(text) => Self::parse(&text),
-            Err(std::env::VarError::NotPresent) => Ok(Parallelism::AllCores),
+            Err(std::env::VarError::NotPresent) => Ok(Parallelism::Serial),
             Err(std::env::VarError::NotUnicode(_)) => Err(StoreError::Invalid(format!(
                 "{THREADS_ENV} is not text; give a number of threads (1 = no parallelism, 0 = one per core)"
             ))),
         }
     }
 
-    /// `1` → serial, `0` or empty → all cores, `N` → N threads.
+    /// `1` or empty → serial, `0` → all cores, `N` → N threads.
     pub fn parse(text: &str) -> Result<Self, StoreError> {
         let text = text.trim();
         if text.is_empty() {
-            return Ok(Parallelism::AllCores);
+            return Ok(Parallelism::Serial);
         }
         match text.parse::<usize>() {
             Ok(0) => Ok(Parallelism::AllCores),
@@ -296,8 +298,8 @@ impl Store {
     /// Streams every standing tree's benefit row of the setup's year, in tree id order: one scan
     /// builds the imputer from each tree's latest measurement (M3), a second computes the rows
     /// (M13). Memory stays small however large the inventory. Returns the number of standing trees
-    /// (with or without a measurement up to the year). Threads as [`THREADS_ENV`] says (default: one
-    /// per core); the rows are the same whatever it says.
+    /// (with or without a measurement up to the year). Threads as [`THREADS_ENV`] says (default: the
+    /// calling thread only); the rows are the same whatever it says.
     pub fn for_each_benefit<E: From<StoreError>>(
         &self,
         setup: &YearSetup,
