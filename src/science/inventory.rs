@@ -187,7 +187,12 @@ pub fn into_benefit_row(
     ctx: &YearContext<'_>,
 ) -> Option<BenefitRow> {
     let (params, benefits) = tree_benefits(&tree, species, ctx)?;
-    Some(BenefitRow {
+    Some(row_from(tree, params, benefits))
+}
+
+/// The row of a tree from its computed benefits, moving the tree's uid, street and zone.
+pub fn row_from(tree: InventoryTree, params: &SpeciesParams, benefits: TreeBenefits) -> BenefitRow {
+    BenefitRow {
         tree_id: tree.tree_id,
         uid: tree.uid,
         species: params.key.clone(),
@@ -195,10 +200,12 @@ pub fn into_benefit_row(
         zone: tree.zone,
         condition: ConditionBand::from_dieback(benefits.detail.dieback_pct),
         benefits,
-    })
+    }
 }
 
-fn tree_benefits<'s>(
+/// A tree's benefits for the context's year and its species' parameters (`None` when not standing or
+/// not measured by then): the computation of [`benefit_row`] without building the row.
+pub fn tree_benefits<'s>(
     tree: &InventoryTree,
     species: &'s [SpeciesParams],
     ctx: &YearContext<'_>,

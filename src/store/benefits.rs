@@ -7,8 +7,8 @@ use crate::model::{SiteKind, Species, StationInfo, TreeStatus};
 use crate::science::condition::ConditionWord;
 use crate::science::dimensions::mean_crown_width_m;
 use crate::science::inventory::{
-    BenefitRow, ImputerSample, InventoryTree, imputer_from_samples, into_benefit_row,
-    species_params,
+    BenefitRow, ImputerSample, InventoryTree, imputer_from_samples, row_from, species_params,
+    tree_benefits,
 };
 use crate::science::money::Prices;
 use crate::science::settings::{KEYS, ScienceSettings};
@@ -337,11 +337,22 @@ impl Store {
         let imputer = imputer_from_samples(&samples, &setup.params);
         drop(samples);
         let ctx = YearContext::new(&imputer, &setup.weather, &setup.settings);
-        let item_of = |tree: InventoryTree| into_benefit_row(tree, &setup.params, &ctx).map(&map);
+        // A tree's item, and its measurements handed back so that they are freed on the thread that
+        // read them (freeing on the pool's threads cost more in the allocator than the computation).
+        let item_of = |mut tree: InventoryTree| {
+            let item = tree_benefits(&tree, &setup.params, &ctx).map(|(params, benefits)| {
+                let measurements = std::mem::take(&mut tree.measurements);
+                (map(row_from(tree, params, benefits)), measurements)
+            });
+            match item {
+                Some((item, measurements)) => (Some(item), measurements),
+                None => (None, Vec::new()),
+            }
+        };
         match parallelism {
             Parallelism::Serial => {
                 self.for_each_standing_tree(setup.year, &setup.species, |tree| {
-                    match item_of(tree) {
+                    match item_of(tree).0 {
                         Some(item) => visit(item),
                         None => Ok(()),
                     }
@@ -390,22 +401,29 @@ impl Store {
     where
         T: Send + 'scope,
         E: From<StoreError>,
-        R: Fn(InventoryTree) -> Option<T> + Sync,
+        R: Fn(InventoryTree) -> (Option<T>, Vec<Measurement>) + Sync,
     {
         use std::collections::VecDeque;
         use std::sync::mpsc::{Receiver, sync_channel};
 
-        let mut in_flight: VecDeque<Receiver<Vec<Option<T>>>> = VecDeque::new();
-        let mut deliver = |batch: Receiver<Vec<Option<T>>>| -> Result<(), E> {
+        type Done<T> = Vec<(Option<T>, Vec<Measurement>)>;
+        let mut in_flight: VecDeque<Receiver<Done<T>>> = VecDeque::new();
+        let mut deliver = |batch: Receiver<Done<T>>| -> Result<(), E> {
             let items = batch.recv().map_err(|_| {
                 StoreError::Invalid("a thread computing benefits stopped".to_string())
             })?;
-            items.into_iter().flatten().try_for_each(&mut *visit)
+            for (item, spent) in items {
+                drop(spent);
+                if let Some(item) = item {
+                    visit(item)?;
+                }
+            }
+            Ok(())
         };
         let spawn = |trees: Vec<InventoryTree>| {
             let (done, result) = sync_channel(1);
             scope.spawn(move |_| {
-                let items: Vec<Option<T>> = trees.into_iter().map(item_of).collect();
+                let items: Done<T> = trees.into_iter().map(item_of).collect();
                 // The receiver is gone only when the caller stopped on an error.
                 let _ = done.send(items);
             });
