@@ -93,6 +93,16 @@ impl BenefitRow {
         }
         flags
     }
+
+    /// Whether [`BenefitRow::estimated`] lists anything, without building the list.
+    pub fn has_estimate(&self) -> bool {
+        let b = &self.benefits;
+        b.height_estimated
+            || b.crown_width_estimated
+            || b.detail.dieback_source == super::tree_year::DiebackSource::Assumed
+            || b.no_crown
+            || b.remeasure
+    }
 }
 
 /// The latest measurement dated on or before `until` with a usable DBH.
@@ -157,14 +167,7 @@ pub fn benefit_row(
     species: &[SpeciesParams],
     ctx: &YearContext<'_>,
 ) -> Option<BenefitRow> {
-    let params = species.get(tree.species_index)?;
-    let input = TreeInput {
-        species: params,
-        site_kind: tree.site_kind,
-        status: tree.status,
-        measurements: &tree.measurements,
-    };
-    let benefits = tree_year(&input, ctx).ok()?;
+    let (params, benefits) = tree_benefits(tree, species, ctx)?;
     Some(BenefitRow {
         tree_id: tree.tree_id,
         uid: tree.uid.clone(),
@@ -174,6 +177,47 @@ pub fn benefit_row(
         condition: ConditionBand::from_dieback(benefits.detail.dieback_pct),
         benefits,
     })
+}
+
+/// [`benefit_row`] for a tree the caller no longer needs: its uid, street and zone move into the row
+/// instead of being copied (the engine's streaming path). The same numbers to the last bit.
+pub fn into_benefit_row(
+    tree: InventoryTree,
+    species: &[SpeciesParams],
+    ctx: &YearContext<'_>,
+) -> Option<BenefitRow> {
+    let (params, benefits) = tree_benefits(&tree, species, ctx)?;
+    Some(row_from(tree, params, benefits))
+}
+
+/// The row of a tree from its computed benefits, moving the tree's uid, street and zone.
+pub fn row_from(tree: InventoryTree, params: &SpeciesParams, benefits: TreeBenefits) -> BenefitRow {
+    BenefitRow {
+        tree_id: tree.tree_id,
+        uid: tree.uid,
+        species: params.key.clone(),
+        street: tree.street,
+        zone: tree.zone,
+        condition: ConditionBand::from_dieback(benefits.detail.dieback_pct),
+        benefits,
+    }
+}
+
+/// A tree's benefits for the context's year and its species' parameters (`None` when not standing or
+/// not measured by then): the computation of [`benefit_row`] without building the row.
+pub fn tree_benefits<'s>(
+    tree: &InventoryTree,
+    species: &'s [SpeciesParams],
+    ctx: &YearContext<'_>,
+) -> Option<(&'s SpeciesParams, TreeBenefits)> {
+    let params = species.get(tree.species_index)?;
+    let input = TreeInput {
+        species: params,
+        site_kind: tree.site_kind,
+        status: tree.status,
+        measurements: &tree.measurements,
+    };
+    Some((params, tree_year(&input, ctx).ok()?))
 }
 
 fn year_end(year: i32) -> NaiveDate {
@@ -249,7 +293,7 @@ pub struct SummaryRow {
 }
 
 impl SummaryRow {
-    fn add(&mut self, row: &BenefitRow) {
+    fn add(&mut self, row: &BenefitRow, estimated: bool) {
         let b = &row.benefits;
         self.trees += 1;
         self.mean_dbh_cm += b.dbh_cm; // a sum until `finish`
@@ -263,7 +307,7 @@ impl SummaryRow {
         self.transpiration_m3_yr += b.transpiration_m3_yr;
         self.cooling_kwh_yr += b.cooling_kwh_yr;
         self.value += b.value;
-        if !row.estimated().is_empty() {
+        if estimated {
             self.estimated_trees += 1;
         }
     }
@@ -276,21 +320,21 @@ impl SummaryRow {
     }
 }
 
-/// The group label of a row.
-fn group_of(row: &BenefitRow, by: GroupBy) -> String {
-    let or_none = |v: &Option<String>| {
-        v.as_deref()
-            .filter(|s| !s.trim().is_empty())
-            .unwrap_or("(none)")
-            .to_string()
-    };
+/// The group label of a row (borrowed: a row adds to its group without copying the label).
+fn group_of(row: &BenefitRow, by: GroupBy) -> &str {
+    fn or_none(v: &Option<String>) -> &str {
+        match v.as_deref() {
+            Some(s) if !s.trim().is_empty() => s,
+            _ => "(none)",
+        }
+    }
     match by {
-        GroupBy::Species => row.species.clone(),
+        GroupBy::Species => &row.species,
         GroupBy::Street => or_none(&row.street),
         GroupBy::Zone => or_none(&row.zone),
-        GroupBy::Condition => row.condition.as_str().to_string(),
-        GroupBy::DbhClass => dbh_class(row.benefits.dbh_cm).to_string(),
-        GroupBy::None => "all trees".to_string(),
+        GroupBy::Condition => row.condition.as_str(),
+        GroupBy::DbhClass => dbh_class(row.benefits.dbh_cm),
+        GroupBy::None => "all trees",
     }
 }
 
@@ -330,19 +374,20 @@ impl Summarizer {
     /// Adds one tree's row.
     pub fn add(&mut self, row: &BenefitRow) {
         let key = group_of(row, self.by);
-        let slot = match self.index.get(&key) {
+        let slot = match self.index.get(key) {
             Some(slot) => *slot,
             None => {
                 self.groups.push(SummaryRow {
-                    group: key.clone(),
+                    group: key.to_string(),
                     ..SummaryRow::default()
                 });
-                self.index.insert(key, self.groups.len() - 1);
+                self.index.insert(key.to_string(), self.groups.len() - 1);
                 self.groups.len() - 1
             }
         };
-        self.groups[slot].add(row);
-        self.total.add(row);
+        let estimated = row.has_estimate();
+        self.groups[slot].add(row, estimated);
+        self.total.add(row, estimated);
     }
 
     /// The groups in report order and the total.
@@ -508,6 +553,37 @@ mod tests {
         assert!((by_group - total.co2e_seq_kg_yr).abs() < 1e-9);
         assert_eq!(total.trees, 3);
         assert!((total.mean_dbh_cm - 30.0).abs() < 1e-12);
+    }
+
+    // `has_estimate` is `!estimated().is_empty()` for every combination of the five flags, and the
+    // moving `into_benefit_row` gives the same row as `benefit_row`.
+    #[test]
+    fn has_estimate_and_into_benefit_row_agree_with_their_references() {
+        let species = vec![species_params(&maple()).expect("groups parse")];
+        let trees = vec![tree(1, 30.0, "Elm Row", Some(9.0))];
+        let mut rows = compute_year(&trees, &species, &wet_year(), &ScienceSettings::default());
+        let mut row = rows.pop().expect("a row");
+        for bits in 0u8..32 {
+            let b = &mut row.benefits;
+            b.height_estimated = bits & 1 != 0;
+            b.crown_width_estimated = bits & 2 != 0;
+            b.detail.dieback_source = if bits & 4 != 0 {
+                super::super::tree_year::DiebackSource::Assumed
+            } else {
+                super::super::tree_year::DiebackSource::Measured
+            };
+            b.no_crown = bits & 8 != 0;
+            b.remeasure = bits & 16 != 0;
+            assert_eq!(row.has_estimate(), !row.estimated().is_empty(), "{bits}");
+        }
+        let weather = wet_year();
+        let settings = ScienceSettings::default();
+        let imputer = build_imputer(&trees, &species, weather.year);
+        let ctx = YearContext::new(&imputer, &weather, &settings);
+        let by_ref = benefit_row(&trees[0], &species, &ctx);
+        let moved = into_benefit_row(trees[0].clone(), &species, &ctx);
+        assert!(by_ref.is_some());
+        assert_eq!(format!("{by_ref:?}"), format!("{moved:?}"));
     }
 
     #[test]

@@ -17,7 +17,7 @@ use super::growth::{
     DbhAt, Growth, GrowthSource, ObservedGrowth, annual_growth, model_growth_cm_per_yr,
     observed_growth,
 };
-use super::interception::{GashCanopy, annual_interception_mm, depth_to_m3};
+use super::interception::{GashCanopy, depth_to_m3};
 use super::kinds::{LeafHabit, SiteKind, TreeStatus, WaterUse};
 use super::leaf_area::{effective_lai, leaf_area_m2};
 use super::money::{FlowValue, Prices, flow_value};
@@ -60,13 +60,18 @@ pub struct Measurement {
 impl Measurement {
     /// Equivalent DBH √Σd² of the usable (positive, finite) stems (METHODS.md M1) [common practice].
     pub fn dbh_cm(&self) -> f64 {
-        self.stems_cm
-            .iter()
-            .filter(|d| d.is_finite() && **d > 0.0)
-            .map(|d| d * d)
-            .sum::<f64>()
-            .sqrt()
+        equivalent_dbh_cm(&self.stems_cm)
     }
+}
+
+/// Equivalent DBH √Σd² (cm) of the usable (positive, finite) stems (METHODS.md M1) [common practice].
+pub fn equivalent_dbh_cm(stems_cm: &[f64]) -> f64 {
+    stems_cm
+        .iter()
+        .filter(|d| d.is_finite() && **d > 0.0)
+        .map(|d| d * d)
+        .sum::<f64>()
+        .sqrt()
 }
 
 /// One tree as the engine sees it.
@@ -326,9 +331,12 @@ pub fn tree_year(tree: &TreeInput<'_>, ctx: &YearContext<'_>) -> Result<TreeBene
     let la = leaf_area_m2(cpa, species.lai, dieback);
     let lai = effective_lai(la, cpa);
 
-    // 7–8. Weather (prepared once per year) and interception.
+    // 7–8. Weather (prepared once per year) and interception: the year's rain days are sorted into
+    // tables once, so this is the day-by-day Gash sum at the cost of a binary search (M5).
     let interception_mm =
-        annual_interception_mm(&ctx.weather.rain_days, lai, species.leaf_habit, settings);
+        ctx.weather
+            .rain
+            .annual_interception_mm(lai, species.leaf_habit, settings);
     let interception_m3 = depth_to_m3(interception_mm, cpa);
     let canopy = GashCanopy::leaf_on(lai, settings);
     let leaf_on_days = match species.leaf_habit {

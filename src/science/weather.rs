@@ -5,6 +5,7 @@ use chrono::{Datelike, NaiveDate};
 use serde::{Deserialize, Serialize};
 
 use super::et0::{DailyMet, Et0Site, GapFills, Humidity, Radiation, daily_et0};
+use super::interception::YearRain;
 use super::settings::ScienceSettings;
 
 /// One day of station weather as stored (every value may be missing; DESIGN.md weather CSV).
@@ -186,6 +187,11 @@ pub struct YearWeather {
     pub days: Vec<ClimateDay>,
     /// Days with rain > 0, in date order.
     pub rain_days: Vec<RainDay>,
+    /// The same rain days sorted into the interception tables (leaf-on, leaf-off, all days), so a
+    /// tree's year of interception is one binary search (METHODS.md M5, M13 step 8). Built from
+    /// `rain_days` by [`YearWeather::compute`]; rebuild it with [`YearRain::new`] if `rain_days` is
+    /// changed.
+    pub rain: YearRain,
     pub leaf_on_rule: LeafOnRule,
     /// Number of leaf-on days: the frost-free season length used for growth scaling (M3).
     pub frost_free_days: u32,
@@ -241,6 +247,7 @@ impl YearWeather {
             year,
             days: Vec::with_capacity(dates.len()),
             rain_days: Vec::new(),
+            rain: YearRain::default(),
             leaf_on_rule,
             frost_free_days: 0,
             et0_all_mm: 0.0,
@@ -293,6 +300,7 @@ impl YearWeather {
                 leaf_on: on,
             });
         }
+        out.rain = YearRain::new(&out.rain_days);
         out
     }
 

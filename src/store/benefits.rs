@@ -5,13 +5,15 @@ use rusqlite::params;
 use super::{Store, StoreError};
 use crate::model::{SiteKind, Species, StationInfo, TreeStatus};
 use crate::science::condition::ConditionWord;
+use crate::science::dimensions::mean_crown_width_m;
 use crate::science::inventory::{
-    BenefitRow, InventoryTree, benefit_row, imputer_from_samples, imputer_sample, species_params,
+    BenefitRow, ImputerSample, InventoryTree, imputer_from_samples, row_from, species_params,
+    tree_benefits,
 };
 use crate::science::money::Prices;
 use crate::science::settings::{KEYS, ScienceSettings};
 use crate::science::tree_year::YearContext;
-use crate::science::tree_year::{Measurement, SpeciesParams};
+use crate::science::tree_year::{Measurement, SpeciesParams, equivalent_dbh_cm};
 use crate::science::weather::{Station, YearWeather};
 
 impl Store {
@@ -67,7 +69,7 @@ impl Store {
             }
             if current.is_none() {
                 let species_id: i64 = row.get(2).map_err(StoreError::from)?;
-                let site: Option<String> = row.get(3).map_err(StoreError::from)?;
+                let site = text_ref(row, 3).map_err(StoreError::from)?;
                 current = Some(InventoryTree {
                     tree_id,
                     uid: row.get(1).map_err(StoreError::from)?,
@@ -76,7 +78,7 @@ impl Store {
                             "tree {tree_id} has an unknown species id {species_id}"
                         ))
                     })?,
-                    site_kind: site.and_then(|s| SiteKind::parse(&s).ok()),
+                    site_kind: site.and_then(|s| SiteKind::parse(s).ok()),
                     status: TreeStatus::Standing,
                     street: row.get(4).map_err(StoreError::from)?,
                     zone: row.get(5).map_err(StoreError::from)?,
@@ -140,27 +142,67 @@ pub struct YearRun {
     pub standing_trees: usize,
 }
 
-fn measurement_from_row(row: &rusqlite::Row<'_>) -> Result<Measurement, StoreError> {
-    let date_text: String = row.get(6)?;
-    let measured_on = date_text
-        .parse()
-        .map_err(|_| StoreError::Invalid(format!("stored date '{date_text}' is not a date")))?;
-    let stems: Option<String> = row.get(7)?;
-    let stems_cm = match stems {
-        Some(text) => crate::io::parse_stems(&text)
-            .map_err(|reason| StoreError::Invalid(format!("stored stems '{text}': {reason}")))?,
-        None => vec![row.get::<_, f64>(8)?],
+/// A text column read in place (no copy); `None` for NULL. Other types are refused as `row.get` would.
+fn text_ref<'r>(row: &'r rusqlite::Row<'_>, index: usize) -> rusqlite::Result<Option<&'r str>> {
+    row.get_ref(index)?.as_str_or_null().map_err(|e| {
+        rusqlite::Error::FromSqlConversionFailure(index, rusqlite::types::Type::Text, e.into())
+    })
+}
+
+/// A stored ISO date: `YYYY-MM-DD` read directly (what the store writes), anything else through
+/// chrono's parser; the same date either way.
+fn stored_date(text: &str) -> Result<chrono::NaiveDate, StoreError> {
+    let fast = match text.as_bytes() {
+        [y0, y1, y2, y3, b'-', m0, m1, b'-', d0, d1]
+            if [y0, y1, y2, y3, m0, m1, d0, d1]
+                .iter()
+                .all(|b| b.is_ascii_digit()) =>
+        {
+            let n = |digits: &[&u8]| {
+                digits
+                    .iter()
+                    .fold(0u32, |v, d| v * 10 + u32::from(**d - b'0'))
+            };
+            chrono::NaiveDate::from_ymd_opt(n(&[y0, y1, y2, y3]) as i32, n(&[m0, m1]), n(&[d0, d1]))
+        }
+        _ => None,
     };
-    let condition: Option<String> = row.get(14)?;
+    match fast {
+        Some(date) => Ok(date),
+        None => text
+            .parse()
+            .map_err(|_| StoreError::Invalid(format!("stored date '{text}' is not a date"))),
+    }
+}
+
+/// The stems of a stored measurement: the `stems_cm` list, or the single `dbh_cm` (columns `stems`
+/// and `dbh`).
+fn stored_stems(row: &rusqlite::Row<'_>, stems: usize, dbh: usize) -> Result<Vec<f64>, StoreError> {
+    Ok(match text_ref(row, stems)? {
+        Some(text) => crate::io::parse_stems(text)
+            .map_err(|reason| StoreError::Invalid(format!("stored stems '{text}': {reason}")))?,
+        None => vec![row.get::<_, f64>(dbh)?],
+    })
+}
+
+fn measurement_from_row(row: &rusqlite::Row<'_>) -> Result<Measurement, StoreError> {
+    let measured_on = match text_ref(row, 6)? {
+        Some(text) => stored_date(text)?,
+        None => {
+            return Err(StoreError::Invalid(
+                "a stored measurement has no date".to_string(),
+            ));
+        }
+    };
     Ok(Measurement {
         measured_on,
-        stems_cm,
+        stems_cm: stored_stems(row, 7, 8)?,
         height_m: row.get(9)?,
         crown_width_m: row.get(10)?,
         crown_width2_m: row.get(11)?,
         crown_base_m: row.get(12)?,
         dieback_pct: row.get(13)?,
-        condition: condition.as_deref().and_then(ConditionWord::parse),
+        condition: text_ref(row, 14)?.and_then(ConditionWord::parse),
     })
 }
 
@@ -198,32 +240,140 @@ fn basis_line(year: i32, station: &StationInfo, days_held: i64, p: &Prices) -> S
     )
 }
 
+/// Trees per batch of the parallel engine: read on the calling thread, computed on the pool, handed
+/// to the caller in order. About 4,096 × (tree + row) ≈ a few MB per batch; at most one batch per pool
+/// thread is in flight, plus the one being read and the one being handed over.
+pub const BATCH_TREES: usize = 4096;
+
+/// The environment variable that sets the engine's threads: unset, empty or `1` computes on the
+/// calling thread only (the default: on a 2-core machine the computation is small next to the SQLite
+/// reads and handing batches to other threads cost more than it saved, DEVELOPERS.md "The benefit
+/// engine at city scale"); `0` one thread per core (rayon's default, which `RAYON_NUM_THREADS` also
+/// sets); `N` a pool of N threads.
+pub const THREADS_ENV: &str = "STREETWOOD_THREADS";
+
+/// How [`Store::for_each_benefit_with`] spreads the per-tree computation. Every choice gives the same
+/// rows, in the same order, to the last bit: each tree's row is a pure function of the tree and the
+/// year's shared context, and the caller receives (and sums) the rows serially in tree id order.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Parallelism {
+    /// Everything on the calling thread.
+    Serial,
+    /// rayon's global pool (one thread per core).
+    AllCores,
+    /// A pool of this many threads (2 or more).
+    Threads(usize),
+}
+
+impl Parallelism {
+    /// From [`THREADS_ENV`] (unset: [`Parallelism::Serial`]).
+    pub fn from_env() -> Result<Self, StoreError> {
+        match std::env::var(THREADS_ENV) {
+            Ok(text) => Self::parse(&text),
+            Err(std::env::VarError::NotPresent) => Ok(Parallelism::Serial),
+            Err(std::env::VarError::NotUnicode(_)) => Err(StoreError::Invalid(format!(
+                "{THREADS_ENV} is not text; give a number of threads (1 = no parallelism, 0 = one per core)"
+            ))),
+        }
+    }
+
+    /// `1` or empty → serial, `0` → all cores, `N` → N threads.
+    pub fn parse(text: &str) -> Result<Self, StoreError> {
+        let text = text.trim();
+        if text.is_empty() {
+            return Ok(Parallelism::Serial);
+        }
+        match text.parse::<usize>() {
+            Ok(0) => Ok(Parallelism::AllCores),
+            Ok(1) => Ok(Parallelism::Serial),
+            Ok(n) => Ok(Parallelism::Threads(n)),
+            Err(_) => Err(StoreError::Invalid(format!(
+                "{THREADS_ENV} = '{text}': give a number of threads (1 = no parallelism, 0 = one per core)"
+            ))),
+        }
+    }
+}
+
 impl Store {
     /// Streams every standing tree's benefit row of the setup's year, in tree id order: one scan
     /// builds the imputer from each tree's latest measurement (M3), a second computes the rows
     /// (M13). Memory stays small however large the inventory. Returns the number of standing trees
-    /// (with or without a measurement up to the year).
+    /// (with or without a measurement up to the year). Threads as [`THREADS_ENV`] says (default: the
+    /// calling thread only); the rows are the same whatever it says.
     pub fn for_each_benefit<E: From<StoreError>>(
         &self,
         setup: &YearSetup,
-        mut visit: impl FnMut(BenefitRow) -> Result<(), E>,
+        visit: impl FnMut(BenefitRow) -> Result<(), E>,
     ) -> Result<usize, E> {
-        let mut samples = Vec::new();
-        self.for_each_standing_tree(setup.year, &setup.species, |tree| {
-            if let Some(sample) = imputer_sample(&tree, setup.year) {
-                samples.push(sample);
-            }
-            Ok::<(), E>(())
-        })?;
+        let parallelism = Parallelism::from_env()?;
+        self.for_each_benefit_with(setup, parallelism, visit)
+    }
+
+    /// [`Store::for_each_benefit`] with the threads chosen by the caller. The SQLite reads and every
+    /// call of `visit` stay on the calling thread; with parallelism, trees are read in batches of
+    /// [`BATCH_TREES`] and a batch's rows are computed on the pool while the next batch is read and
+    /// the previous one handed to `visit`.
+    pub fn for_each_benefit_with<E: From<StoreError>>(
+        &self,
+        setup: &YearSetup,
+        parallelism: Parallelism,
+        visit: impl FnMut(BenefitRow) -> Result<(), E>,
+    ) -> Result<usize, E> {
+        self.for_each_benefit_mapped(setup, parallelism, |row| row, visit)
+    }
+
+    /// [`Store::for_each_benefit_with`], with `map` applied to each row on the pool beside its
+    /// computation (for instance turning it into output cells), and `visit` given the results serially
+    /// in tree id order. `map` must be a pure function of the row for the output not to depend on the
+    /// threads.
+    pub fn for_each_benefit_mapped<T: Send, E: From<StoreError>>(
+        &self,
+        setup: &YearSetup,
+        parallelism: Parallelism,
+        map: impl Fn(BenefitRow) -> T + Sync,
+        mut visit: impl FnMut(T) -> Result<(), E>,
+    ) -> Result<usize, E> {
+        let samples = self.imputer_samples(setup)?;
         let imputer = imputer_from_samples(&samples, &setup.params);
         drop(samples);
         let ctx = YearContext::new(&imputer, &setup.weather, &setup.settings);
-        self.for_each_standing_tree(setup.year, &setup.species, |tree| {
-            match benefit_row(&tree, &setup.params, &ctx) {
-                Some(row) => visit(row),
-                None => Ok(()),
+        // A tree's item, and its measurements handed back so that they are freed on the thread that
+        // read them (freeing on the pool's threads cost more in the allocator than the computation).
+        let item_of = |mut tree: InventoryTree| {
+            let item = tree_benefits(&tree, &setup.params, &ctx).map(|(params, benefits)| {
+                let measurements = std::mem::take(&mut tree.measurements);
+                (map(row_from(tree, params, benefits)), measurements)
+            });
+            match item {
+                Some((item, measurements)) => (Some(item), measurements),
+                None => (None, Vec::new()),
             }
-        })?;
+        };
+        match parallelism {
+            Parallelism::Serial => {
+                self.for_each_standing_tree(setup.year, &setup.species, |tree| {
+                    match item_of(tree).0 {
+                        Some(item) => visit(item),
+                        None => Ok(()),
+                    }
+                })?;
+            }
+            Parallelism::AllCores => {
+                let lanes = rayon::current_num_threads();
+                rayon::in_place_scope(|scope| {
+                    self.pipeline(setup, scope, lanes, &item_of, &mut visit)
+                })?;
+            }
+            Parallelism::Threads(n) => {
+                let pool = rayon::ThreadPoolBuilder::new()
+                    .num_threads(n)
+                    .build()
+                    .map_err(|e| {
+                        StoreError::Invalid(format!("could not start {n} threads: {e}"))
+                    })?;
+                pool.in_place_scope(|scope| self.pipeline(setup, scope, n, &item_of, &mut visit))?;
+            }
+        }
         let standing: i64 = self
             .conn
             .query_row(
@@ -233,6 +383,130 @@ impl Store {
             )
             .map_err(StoreError::from)?;
         Ok(standing as usize)
+    }
+
+    /// The batched pipeline of [`Store::for_each_benefit_with`]: each batch is one task of `scope`
+    /// (its trees in input order), up to `lanes` batches computing at once on the pool's threads, while
+    /// this thread reads the next batch and hands the oldest finished one to `visit`. One task per
+    /// batch rather than a `par_iter` over its trees: the computation is small next to the reads, and
+    /// splitting a batch across threads cost more CPU than it saved (measured on 2 cores).
+    fn pipeline<'scope, T, E, R>(
+        &self,
+        setup: &YearSetup,
+        scope: &rayon::Scope<'scope>,
+        lanes: usize,
+        item_of: &'scope R,
+        visit: &mut impl FnMut(T) -> Result<(), E>,
+    ) -> Result<(), E>
+    where
+        T: Send + 'scope,
+        E: From<StoreError>,
+        R: Fn(InventoryTree) -> (Option<T>, Vec<Measurement>) + Sync,
+    {
+        use std::collections::VecDeque;
+        use std::sync::mpsc::{Receiver, sync_channel};
+
+        type Done<T> = Vec<(Option<T>, Vec<Measurement>)>;
+        let mut in_flight: VecDeque<Receiver<Done<T>>> = VecDeque::new();
+        let mut deliver = |batch: Receiver<Done<T>>| -> Result<(), E> {
+            let items = batch.recv().map_err(|_| {
+                StoreError::Invalid("a thread computing benefits stopped".to_string())
+            })?;
+            for (item, spent) in items {
+                drop(spent);
+                if let Some(item) = item {
+                    visit(item)?;
+                }
+            }
+            Ok(())
+        };
+        let spawn = |trees: Vec<InventoryTree>| {
+            let (done, result) = sync_channel(1);
+            scope.spawn(move |_| {
+                let items: Done<T> = trees.into_iter().map(item_of).collect();
+                // The receiver is gone only when the caller stopped on an error.
+                let _ = done.send(items);
+            });
+            result
+        };
+        let mut batch = Vec::with_capacity(BATCH_TREES);
+        self.for_each_standing_tree(setup.year, &setup.species, |tree| {
+            batch.push(tree);
+            if batch.len() == BATCH_TREES {
+                let full = std::mem::replace(&mut batch, Vec::with_capacity(BATCH_TREES));
+                in_flight.push_back(spawn(full));
+                if in_flight.len() > lanes.max(1)
+                    && let Some(previous) = in_flight.pop_front()
+                {
+                    deliver(previous)?;
+                }
+            }
+            Ok::<(), E>(())
+        })?;
+        if !batch.is_empty() {
+            in_flight.push_back(spawn(batch));
+        }
+        while let Some(next) = in_flight.pop_front() {
+            deliver(next)?;
+        }
+        Ok(())
+    }
+
+    /// What every standing tree adds to the imputer (M3): its latest measurement dated in or before
+    /// the year with a usable DBH, read by a scan of only the columns the imputer needs. The same
+    /// samples as [`crate::science::inventory::imputer_sample`] of each streamed tree: rows come in
+    /// (measured_on, id) order, so the last usable row of a tree is the latest (ties: the last).
+    fn imputer_samples(&self, setup: &YearSetup) -> Result<Vec<ImputerSample>, StoreError> {
+        let index_of: std::collections::HashMap<i64, usize> = setup
+            .species
+            .iter()
+            .enumerate()
+            .map(|(i, s)| (s.id, i))
+            .collect();
+        let mut stmt = self.conn.prepare(
+            "SELECT t.id, t.species_id, m.stems_cm, m.dbh_cm, m.height_m, m.crown_width_m,
+                    m.crown_width2_m
+             FROM trees t
+             JOIN measurements m ON m.tree_id = t.id AND m.measured_on <= ?1
+             WHERE t.status = 'standing'
+             ORDER BY t.id, m.measured_on, m.id",
+        )?;
+        let mut rows = stmt.query(params![format!("{:04}-12-31", setup.year)])?;
+        let mut samples = Vec::new();
+        let mut current: Option<(i64, Option<ImputerSample>)> = None;
+        while let Some(row) = rows.next()? {
+            let tree_id: i64 = row.get(0)?;
+            if current.as_ref().is_some_and(|(id, _)| *id != tree_id)
+                && let Some((_, Some(sample))) = current.take()
+            {
+                samples.push(sample);
+            }
+            if current.as_ref().is_none_or(|(id, _)| *id != tree_id) {
+                current = Some((tree_id, None));
+            }
+            let dbh_cm = equivalent_dbh_cm(&stored_stems(row, 2, 3)?);
+            if dbh_cm > 0.0 {
+                let species_id: i64 = row.get(1)?;
+                let species_index = *index_of.get(&species_id).ok_or_else(|| {
+                    StoreError::Invalid(format!(
+                        "tree {tree_id} has an unknown species id {species_id}"
+                    ))
+                })?;
+                let sample = ImputerSample {
+                    species_index,
+                    dbh_cm,
+                    height_m: row.get(4)?,
+                    crown_width_m: mean_crown_width_m(row.get(5)?, row.get(6)?),
+                };
+                if let Some((_, slot)) = current.as_mut() {
+                    *slot = Some(sample);
+                }
+            }
+        }
+        if let Some((_, Some(sample))) = current {
+            samples.push(sample);
+        }
+        Ok(samples)
     }
 }
 
