@@ -185,3 +185,24 @@ fn study_writes_are_audited_undoable_and_all_or_nothing() {
     let err = store.study_run_data("works").err().expect("no weather");
     assert!(err.to_string().contains("import"), "{err}");
 }
+
+// The study's imputer is built from a streamed scan (a city's inventory is never held in memory); it
+// must equal the one built from the whole inventory in memory, the straightforward reference.
+#[test]
+fn the_streamed_study_imputer_equals_the_in_memory_one() {
+    let mut store = Store::open_in_memory().expect("store");
+    streetwood::cli::demo::load_demo(&mut store).expect("demo");
+    store
+        .create_study(&study("imputer"), now(), "study")
+        .expect("study");
+    let data = store.study_run_data("imputer").expect("run data");
+    let (species, inventory) = store.inventory_for_year(9999).expect("inventory");
+    let params: Vec<_> = species
+        .iter()
+        .map(streetwood::science::inventory::species_params)
+        .collect::<Result<_, _>>()
+        .expect("params");
+    let reference = streetwood::science::inventory::build_imputer(&inventory, &params, 9999);
+    assert_eq!(data.imputer, reference);
+    assert_ne!(reference, Default::default(), "the demo has measured trees");
+}

@@ -333,7 +333,7 @@ impl Store {
         map: impl Fn(BenefitRow) -> T + Sync,
         mut visit: impl FnMut(T) -> Result<(), E>,
     ) -> Result<usize, E> {
-        let samples = self.imputer_samples(setup)?;
+        let samples = self.imputer_samples(&setup.species, setup.year)?;
         let imputer = imputer_from_samples(&samples, &setup.params);
         drop(samples);
         let ctx = YearContext::new(&imputer, &setup.weather, &setup.settings);
@@ -456,13 +456,15 @@ impl Store {
     /// the year with a usable DBH, read by a scan of only the columns the imputer needs. The same
     /// samples as [`crate::science::inventory::imputer_sample`] of each streamed tree: rows come in
     /// (measured_on, id) order, so the last usable row of a tree is the latest (ties: the last).
-    fn imputer_samples(&self, setup: &YearSetup) -> Result<Vec<ImputerSample>, StoreError> {
-        let index_of: std::collections::HashMap<i64, usize> = setup
-            .species
-            .iter()
-            .enumerate()
-            .map(|(i, s)| (s.id, i))
-            .collect();
+    /// The imputer sample (METHODS.md M3) of every standing tree's latest measurement dated in or
+    /// before `year`, in one ordered scan that holds only the samples (a few words per tree).
+    pub(crate) fn imputer_samples(
+        &self,
+        species: &[Species],
+        year: i32,
+    ) -> Result<Vec<ImputerSample>, StoreError> {
+        let index_of: std::collections::HashMap<i64, usize> =
+            species.iter().enumerate().map(|(i, s)| (s.id, i)).collect();
         let mut stmt = self.conn.prepare(
             "SELECT t.id, t.species_id, m.stems_cm, m.dbh_cm, m.height_m, m.crown_width_m,
                     m.crown_width2_m
@@ -471,7 +473,7 @@ impl Store {
              WHERE t.status = 'standing'
              ORDER BY t.id, m.measured_on, m.id",
         )?;
-        let mut rows = stmt.query(params![format!("{:04}-12-31", setup.year)])?;
+        let mut rows = stmt.query(params![format!("{year:04}-12-31")])?;
         let mut samples = Vec::new();
         let mut current: Option<(i64, Option<ImputerSample>)> = None;
         while let Some(row) = rows.next()? {

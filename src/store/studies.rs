@@ -9,7 +9,7 @@ use super::{Store, StoreError};
 use crate::model::{SiteKind, Species, StationInfo};
 use crate::science::condition::ConditionWord;
 use crate::science::dimensions::Imputer;
-use crate::science::inventory::{build_imputer, species_params};
+use crate::science::inventory::{imputer_from_samples, species_params};
 use crate::science::settings::{KEYS as SCIENCE_KEYS, ScienceSettings};
 use crate::science::tree_year::{Measurement, SpeciesParams};
 use crate::science::weather::{Station, YearWeather};
@@ -452,14 +452,15 @@ impl Store {
             &days,
             &science,
         );
-        // The imputer of METHODS.md M3 from every standing tree's latest measurement.
-        let (species, inventory) = self.inventory_for_year(9999)?;
+        // The imputer of METHODS.md M3 from every standing tree's latest measurement, streamed (a
+        // city's whole inventory is never held in memory).
+        let species = self.species()?;
         let params: Vec<SpeciesParams> = species
             .iter()
             .map(species_params)
             .collect::<Result<_, _>>()
             .map_err(StoreError::Invalid)?;
-        let imputer = build_imputer(&inventory, &params, 9999);
+        let imputer = imputer_from_samples(&self.imputer_samples(&species, 9999)?, &params);
         let index_of = |species_id: i64| species.iter().position(|s| s.id == species_id);
 
         let removed = self.study_removed_trees(record.id, &index_of)?;
