@@ -327,7 +327,15 @@ impl State {
         self.recompute();
     }
 
-    fn matches(&self, entry: &RosterEntry, species_hit: &[bool], street_hit: &[bool]) -> bool {
+    /// Whether an entry passes the filters and the search; `uid_hit` is indexed by position.
+    fn matches(
+        &self,
+        position: u32,
+        species_hit: &[bool],
+        street_hit: &[bool],
+        uid_hit: &[bool],
+    ) -> bool {
+        let entry = &self.data.entries[position as usize];
         let filters_pass = self.filters.iter().all(|f| match f {
             Filter::Species(s) => entry.species == *s,
             Filter::Street(s) => entry.street == *s,
@@ -347,9 +355,7 @@ impl State {
         let hit = |table: &[bool], index: u32| {
             index != NONE && table.get(index as usize).copied().unwrap_or(false)
         };
-        hit(species_hit, entry.species)
-            || hit(street_hit, entry.street)
-            || self.uid_matches.contains(&entry.id)
+        hit(species_hit, entry.species) || hit(street_hit, entry.street) || hit(uid_hit, position)
     }
 
     /// Every entry's position sorted by `key`, then id; computed once per key and kept until the index
@@ -395,14 +401,20 @@ impl State {
             .iter()
             .map(|s| !needle.is_empty() && s.to_lowercase().contains(&needle))
             .collect();
+        // Trees whose uid starts with the search, by position: a table lookup per entry in the pass
+        // below instead of hashing every id (the search pass over a million trees stays in a frame).
+        let mut uid_hit = Vec::new();
+        if !self.uid_matches.is_empty() {
+            uid_hit = vec![false; self.data.entries.len()];
+            for id in &self.uid_matches {
+                if let Ok(position) = self.data.entries.binary_search_by_key(id, |e| e.id) {
+                    uid_hit[position] = true;
+                }
+            }
+        }
         let filtering = !self.filters.is_empty() || !needle.is_empty();
         let keep = |position: u32| {
-            !filtering
-                || self.matches(
-                    &self.data.entries[position as usize],
-                    &species_hit,
-                    &street_hit,
-                )
+            !filtering || self.matches(position, &species_hit, &street_hit, &uid_hit)
         };
         let order: Vec<u32> = match self.sort {
             None => (0..self.data.entries.len() as u32)
@@ -683,6 +695,21 @@ mod tests {
             .iter()
             .map(|p| state.data.entries[*p as usize].id)
             .collect()
+    }
+
+    // A search keeps the trees whose uid matched (found by the store), in the current order, and
+    // ignores ids the index does not hold.
+    #[test]
+    fn a_search_keeps_the_trees_whose_uid_matched() {
+        let mut state = State::new(index(50));
+        state.set_search("4e3e", [7, 3, 999].into_iter().collect());
+        assert_eq!(visible_ids(&state), vec![3, 7]);
+        state.set_sort(SortKey::Id, true);
+        assert_eq!(visible_ids(&state), vec![7, 3]);
+        state.set_search("4e3e", Default::default());
+        assert!(visible_ids(&state).is_empty());
+        state.clear_filters();
+        assert_eq!(visible_ids(&state).len(), 50);
     }
 
     // The orders computed off the UI thread must be the ones the roster would compute itself.
