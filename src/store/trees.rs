@@ -171,6 +171,18 @@ impl Store {
         result
     }
 
+    /// The number of trees at a glance, from the largest id (one index lookup, where `count(*)` reads a
+    /// whole index: on a city's file opened cold that is a fifth of a second before the first frame).
+    /// Exact while ids stay dense, as they do here: trees are never deleted and new ids follow the
+    /// largest; shown as an approximation all the same.
+    pub fn tree_count_estimate(&self) -> Result<i64, StoreError> {
+        Ok(self
+            .conn
+            .query_row("SELECT coalesce(max(id), 0) FROM trees", [], |row| {
+                row.get(0)
+            })?)
+    }
+
     /// Number of trees, all statuses.
     pub fn tree_count(&self) -> Result<i64, StoreError> {
         Ok(self

@@ -512,7 +512,7 @@ impl App {
         settings: AppSettings,
         today: chrono::NaiveDate,
     ) -> Result<Self, StoreError> {
-        let trees = query.tree_count()?;
+        let trees = query.tree_count_estimate()?;
         query.start_roster_index();
         let mut app = App::new_with_index(query, settings, today, Default::default())?;
         app.loading_roster = Some(trees);
@@ -1437,7 +1437,7 @@ impl App {
             Some(message) => Line::from(format!(" {message}")),
             None if self.view == View::Roster && self.loading_roster.is_some() => {
                 Line::from(format!(
-                    " ⧗ loading the roster of {} trees… (the field log and other views work meanwhile)",
+                    " ⧗ loading the roster of ~{} trees… (the field log and other views work meanwhile)",
                     self.loading_roster.unwrap_or_default()
                 ))
             }

@@ -144,9 +144,9 @@ impl<'a> Query<'a> {
         Some(result)
     }
 
-    /// Number of trees in the inventory (a quick count for the loading message).
-    pub fn tree_count(&self) -> Result<i64, StoreError> {
-        self.store.tree_count()
+    /// The number of trees at a glance (see [`Store::tree_count_estimate`]).
+    pub fn tree_count_estimate(&self) -> Result<i64, StoreError> {
+        self.store.tree_count_estimate()
     }
 
     /// Starts computing the year's benefits off the UI thread (a file-backed inventory opens a second,
