@@ -413,19 +413,24 @@ impl State {
             }
         }
         let filtering = !self.filters.is_empty() || !needle.is_empty();
-        let keep = |position: u32| {
-            !filtering || self.matches(position, &species_hit, &street_hit, &uid_hit)
+        // Which entries pass, tested in entry order (a sequential pass over the index); a sorted order
+        // then reads this small table, not the entries at random.
+        let passes: Vec<bool> = if filtering {
+            (0..self.data.entries.len() as u32)
+                .map(|p| self.matches(p, &species_hit, &street_hit, &uid_hit))
+                .collect()
+        } else {
+            Vec::new()
         };
+        let keep = |position: &u32| !filtering || passes[*position as usize];
         let order: Vec<u32> = match self.sort {
-            None => (0..self.data.entries.len() as u32)
-                .filter(|p| keep(*p))
-                .collect(),
+            None => (0..self.data.entries.len() as u32).filter(keep).collect(),
             Some((key, descending)) => {
                 let full = self.sorted_positions(key);
                 if descending {
-                    full.iter().rev().copied().filter(|p| keep(*p)).collect()
+                    full.iter().rev().copied().filter(keep).collect()
                 } else {
-                    full.iter().copied().filter(|p| keep(*p)).collect()
+                    full.iter().copied().filter(keep).collect()
                 }
             }
         };
