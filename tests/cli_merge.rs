@@ -303,3 +303,39 @@ fn interactive_merge_refuses_dry_run_and_json_before_opening_a_screen() {
     }
     assert_eq!((audit(), peers()), before);
 }
+
+// Undoing a merge reverts its rows but keeps the sync point, so the user is told what a second merge
+// of the same copy will (not) bring back; undoing any other change says nothing of the kind.
+#[test]
+fn undoing_a_merge_says_what_a_second_merge_will_not_bring_back() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    let d = dir.path();
+    let office = d.join("office.db");
+    let o = office.to_str().expect("utf-8");
+    ok(d, &["demo", "--out", o]);
+    ok(d, &["--db", o, "copy", "--for", "crew a", "a.db"]);
+    let csv = trees_csv(d, "a.csv", &[new_tree("UNDO-1", "Wren Walk", 3)]);
+    ok(d, &["--db", "a.db", "import", "trees", &csv]);
+    ok(d, &["--db", o, "merge", "a.db"]);
+    assert_eq!(
+        query::<i64>(&office, "SELECT count(*) FROM trees WHERE uid = 'UNDO-1'"),
+        1
+    );
+    let output = run(d, &["--db", o, "undo"]);
+    assert!(output.status.success(), "{}", stderr(&output));
+    assert!(stderr(&output).contains("by merge"), "{}", stderr(&output));
+    assert!(
+        stderr(&output).contains("note: undoing a merge does not forget it"),
+        "{}",
+        stderr(&output)
+    );
+    assert_eq!(
+        query::<i64>(&office, "SELECT count(*) FROM trees WHERE uid = 'UNDO-1'"),
+        0
+    );
+    // An ordinary undo has no such note.
+    let csv = trees_csv(d, "b.csv", &[new_tree("UNDO-2", "Wren Walk", 5)]);
+    ok(d, &["--db", o, "import", "trees", &csv]);
+    let output = run(d, &["--db", o, "undo"]);
+    assert!(!stderr(&output).contains("note:"), "{}", stderr(&output));
+}

@@ -66,7 +66,12 @@ pub fn undo(inventory: &Path, count: usize, list: bool) -> Result<(), CliError> 
     }
     for done in 0..count {
         match store.undo_last("undo")? {
-            Some(change) => eprintln!("undone: {}", change.describe()),
+            Some(change) => {
+                eprintln!("undone: {}", change.describe());
+                if let Some(caveat) = change.undo_caveat() {
+                    eprintln!("note: {caveat}");
+                }
+            }
             None => {
                 eprintln!("nothing more to undo ({done} undone)");
                 break;

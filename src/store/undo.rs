@@ -35,6 +35,18 @@ impl Change {
     }
 }
 
+impl Change {
+    /// What undoing this change leaves as it was, when that is worth saying: undoing a merge reverts
+    /// its rows but not the record of how far the two files agree, so merging the same copy again does
+    /// not bring back the changes the merge took in (they stay in the copy).
+    pub fn undo_caveat(&self) -> Option<&'static str> {
+        (self.actor == super::merge::MERGE_ACTOR).then_some(
+            "undoing a merge does not forget it: merging the same copy again brings only what changed there \
+             since, not the values this undo took out (they stay in the copy's file)",
+        )
+    }
+}
+
 impl Store {
     /// The latest changes that can be undone (not seeding, not undos, not already undone), newest first.
     pub fn undoable_changes(&self, limit: usize) -> Result<Vec<Change>, StoreError> {

@@ -1173,7 +1173,10 @@ impl App {
                         }
                     }
                 }
-                self.message = Some(format!("undone: {}", change.describe()));
+                self.message = Some(match change.undo_caveat() {
+                    Some(caveat) => format!("undone: {}; note: {caveat}", change.describe()),
+                    None => format!("undone: {}", change.describe()),
+                });
             }
         }
         Ok(())
