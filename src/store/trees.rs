@@ -287,6 +287,31 @@ impl Store {
     }
 }
 
+/// Runs [`UPDATE_TREE_SQL`] for one import row (the per-row and the bulk path share it).
+fn update_tree_row(
+    update: &mut rusqlite::CachedStatement<'_>,
+    id: i64,
+    species_id: i64,
+    row: &TreeImportRow,
+    stamp: &str,
+) -> rusqlite::Result<usize> {
+    let record = &row.record;
+    update.execute(params![
+        id,
+        species_id,
+        record.lon,
+        record.lat,
+        record.street,
+        record.house_number,
+        record.site_kind.map(SiteKind::as_str),
+        record.planted_on.map(|d| d.to_string()),
+        record.status.map(TreeStatus::as_str),
+        row.zone_id,
+        record.notes,
+        stamp,
+    ])
+}
+
 /// An import row's update of a known tree: the attributes it gives, and only when one differs.
 const UPDATE_TREE_SQL: &str = "UPDATE trees SET species_id = ?2, lon = coalesce(?3, lon), lat = coalesce(?4, lat),
      street = coalesce(?5, street), house_number = coalesce(?6, house_number),
@@ -347,21 +372,7 @@ fn import_rows(
         let status = record.status.map(TreeStatus::as_str);
         let tree_id = match existing {
             Some(id) => {
-                let changed = update_tree
-                    .execute(params![
-                        id,
-                        species_id,
-                        record.lon,
-                        record.lat,
-                        record.street,
-                        record.house_number,
-                        site_kind,
-                        planted_on,
-                        status,
-                        row.zone_id,
-                        record.notes,
-                        stamp,
-                    ])
+                let changed = update_tree_row(&mut update_tree, id, species_id, &row, &stamp)
                     .map_err(|e| fail(constraint_message(e)))?;
                 outcome.trees_updated += changed;
                 id
@@ -671,27 +682,12 @@ impl BulkImport<'_> {
                 if !same {
                     self.flush()?;
                     stored = true;
-                    let changed = self
-                        .conn
-                        .prepare_cached(UPDATE_TREE_SQL)?
-                        .execute(params![
-                            id,
-                            species_id,
-                            record.lon,
-                            record.lat,
-                            record.street,
-                            record.house_number,
-                            site_kind,
-                            planted_on,
-                            status,
-                            row.zone_id,
-                            record.notes,
-                            self.stamp,
-                        ])
+                    let mut update = self.conn.prepare_cached(UPDATE_TREE_SQL)?;
+                    let changed = update_tree_row(&mut update, id, species_id, &row, &self.stamp)
                         .map_err(|e| StoreError::Row {
-                            line: row.line,
-                            message: constraint_message(e),
-                        })?;
+                        line: row.line,
+                        message: constraint_message(e),
+                    })?;
                     self.outcome.trees_updated += changed;
                 }
                 if self.has_measurement(id, stored, &measured_on, dbh_cm)? {
